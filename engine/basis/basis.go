@@ -1,0 +1,243 @@
+// Package basis is moltrail's Gaussian basis-set library: the embedded sets
+// (Basis Set Exchange data as redistributed in Debian's psi4-data 1.3.2,
+// one JSON file per set under data/, each carrying its literature
+// references), user-supplied sets in the same JSON layout
+// (schemas/basis.schema.json), look-up by name or alias, and the shells of a
+// basis placed on a molecule with normalised contraction coefficients.
+//
+// Function order within a shell. Cartesian: lexicographic in (lx, ly, lz)
+// descending, i.e. xx, xy, xz, yy, yz, zz for d. Spherical (real solid
+// harmonics, l ≥ 2 only; s and p keep x, y, z in both representations):
+// m = −l, …, 0, …, +l.
+package basis
+
+import (
+	"crypto/sha256"
+	"embed"
+	"encoding/hex"
+	"encoding/json"
+	"fmt"
+	"math"
+	"os"
+	"sort"
+	"strings"
+
+	"moltrail/engine/molecule"
+)
+
+//go:embed data/*.json
+var dataFS embed.FS
+
+// Angular says whether a shell uses Cartesian or spherical functions.
+type Angular string
+
+const (
+	Spherical Angular = "spherical"
+	Cartesian Angular = "cartesian"
+)
+
+// ShellData is one contracted shell of an element as the JSON stores it.
+type ShellData struct {
+	L            int       `json:"l"`
+	Exponents    []float64 `json:"exponents"`
+	Coefficients []float64 `json:"coefficients"`
+}
+
+// Set is a basis set definition: a name and shells per element.
+type Set struct {
+	Name       string                 `json:"name"`
+	Aliases    []string               `json:"aliases"`
+	Role       string                 `json:"role"`
+	Angular    Angular                `json:"angular"`
+	Source     string                 `json:"source"`
+	References []string               `json:"references"`
+	Elements   map[string][]ShellData `json:"elements"`
+
+	// SHA256 is the hex SHA-256 of the set's file bytes exactly as read.
+	SHA256 string `json:"-"`
+	// File names the embedded file ("builtin:cc-pvdz.json") or the user path.
+	File string `json:"-"`
+
+	raw []byte
+}
+
+type indexEntry struct {
+	Name    string   `json:"name"`
+	Aliases []string `json:"aliases"`
+	File    string   `json:"file"`
+	Role    string   `json:"role"`
+	Angular Angular  `json:"angular"`
+	Elems   []string `json:"elements"`
+}
+
+var index = func() []indexEntry {
+	b, err := dataFS.ReadFile("data/index.json")
+	if err != nil {
+		panic("basis: embedded index missing: " + err.Error())
+	}
+	var idx []indexEntry
+	if err := json.Unmarshal(b, &idx); err != nil {
+		panic("basis: embedded index unreadable: " + err.Error())
+	}
+	return idx
+}()
+
+// Normalize maps a basis name to its look-up key: lower case, and the
+// polarisation spellings (d) → *, (d,p) → **.
+func Normalize(name string) string {
+	s := strings.ToLower(strings.TrimSpace(name))
+	s = strings.ReplaceAll(s, " ", "")
+	s = strings.ReplaceAll(s, "(d,p)", "**")
+	s = strings.ReplaceAll(s, "(d)", "*")
+	return s
+}
+
+// Info summarises one library entry.
+type Info struct {
+	Name     string
+	Aliases  []string
+	Role     string
+	Angular  Angular
+	Elements []string
+	File     string
+}
+
+// Library lists the built-in sets in library order.
+func Library() []Info {
+	out := make([]Info, 0, len(index))
+	for _, e := range index {
+		out = append(out, Info{Name: e.Name, Aliases: e.Aliases, Role: e.Role, Angular: e.Angular, Elements: e.Elems, File: e.File})
+	}
+	return out
+}
+
+// Builtin returns the built-in set with this name or alias (case-insensitive).
+func Builtin(name string) (*Set, error) {
+	key := Normalize(name)
+	for _, e := range index {
+		match := Normalize(e.Name) == key
+		for _, a := range e.Aliases {
+			match = match || Normalize(a) == key
+		}
+		if !match {
+			continue
+		}
+		b, err := dataFS.ReadFile("data/" + e.File)
+		if err != nil {
+			return nil, fmt.Errorf("basis %q: embedded file %s missing: %w", e.Name, e.File, err)
+		}
+		return parse(b, "builtin:"+e.File)
+	}
+	var names []string
+	for _, e := range index {
+		names = append(names, e.Name)
+	}
+	return nil, fmt.Errorf("basis %q is not in the library (known: %s); a file of your own can be given by path", name, strings.Join(names, ", "))
+}
+
+// Load resolves a basis by library name/alias, or, when the argument names
+// an existing file (or ends in .json), reads that file.
+func Load(nameOrPath string) (*Set, error) {
+	if strings.HasSuffix(strings.ToLower(nameOrPath), ".json") || strings.ContainsRune(nameOrPath, os.PathSeparator) {
+		return ReadFile(nameOrPath)
+	}
+	return Builtin(nameOrPath)
+}
+
+// ReadFile reads a user-supplied basis file in the library's JSON layout.
+func ReadFile(path string) (*Set, error) {
+	b, err := os.ReadFile(path)
+	if err != nil {
+		return nil, fmt.Errorf("cannot read basis file: %w", err)
+	}
+	return parse(b, path)
+}
+
+func parse(b []byte, file string) (*Set, error) {
+	var s Set
+	dec := json.NewDecoder(strings.NewReader(string(b)))
+	dec.DisallowUnknownFields()
+	if err := dec.Decode(&s); err != nil {
+		return nil, fmt.Errorf("basis file %s: not a basis set in moltrail's JSON layout: %v", file, err)
+	}
+	if s.Name == "" {
+		return nil, fmt.Errorf("basis file %s: field \"name\" is missing", file)
+	}
+	switch s.Angular {
+	case Spherical, Cartesian:
+	case "":
+		return nil, fmt.Errorf("basis file %s: field \"angular\" is missing (spherical or cartesian)", file)
+	default:
+		return nil, fmt.Errorf("basis file %s: field \"angular\" is %q, expected spherical or cartesian", file, s.Angular)
+	}
+	if len(s.Elements) == 0 {
+		return nil, fmt.Errorf("basis file %s: no elements", file)
+	}
+	for el, shells := range s.Elements {
+		if _, err := molecule.Lookup(el); err != nil {
+			return nil, fmt.Errorf("basis file %s: elements.%s: %v", file, el, err)
+		}
+		for i, sh := range shells {
+			where := fmt.Sprintf("basis file %s: elements.%s[%d]", file, el, i)
+			if sh.L < 0 || sh.L > MaxL {
+				return nil, fmt.Errorf("%s: angular momentum l=%d is outside 0–%d", where, sh.L, MaxL)
+			}
+			if len(sh.Exponents) == 0 || len(sh.Exponents) != len(sh.Coefficients) {
+				return nil, fmt.Errorf("%s: %d exponents but %d coefficients", where, len(sh.Exponents), len(sh.Coefficients))
+			}
+			for k, a := range sh.Exponents {
+				if !(a > 0) || math.IsInf(a, 0) {
+					return nil, fmt.Errorf("%s: exponent %d is %v, it must be positive and finite", where, k, a)
+				}
+				if c := sh.Coefficients[k]; math.IsNaN(c) || math.IsInf(c, 0) {
+					return nil, fmt.Errorf("%s: coefficient %d is %v", where, k, c)
+				}
+			}
+		}
+	}
+	sum := sha256.Sum256(b)
+	s.SHA256 = hex.EncodeToString(sum[:])
+	s.File = file
+	s.raw = b
+	return &s, nil
+}
+
+// MaxL is the highest angular momentum the engine handles (g functions).
+const MaxL = 4
+
+// Covers reports the first element of the molecule the set lacks, or "".
+func (s *Set) Covers(m *molecule.Molecule) string {
+	for _, a := range m.Atoms {
+		if _, ok := s.Elements[a.Symbol]; !ok {
+			return a.Symbol
+		}
+	}
+	return ""
+}
+
+// ElementSymbols lists the elements the set defines, by atomic number.
+func (s *Set) ElementSymbols() []string {
+	var out []string
+	for el := range s.Elements {
+		out = append(out, el)
+	}
+	sort.Slice(out, func(i, j int) bool {
+		a, _ := molecule.Lookup(out[i])
+		b, _ := molecule.Lookup(out[j])
+		return a.Z < b.Z
+	})
+	return out
+}
+
+// ParseBytes reads a basis set from JSON bytes in the library layout;
+// source names the origin in error messages.
+func ParseBytes(b []byte, source string) (*Set, error) { return parse(b, source) }
+
+// RawBytes returns the exact file bytes a set was read from (for inlining a
+// user-supplied set into a job).
+func RawBytes(s *Set) ([]byte, error) {
+	if s.raw == nil {
+		return nil, fmt.Errorf("basis %q: original bytes not kept", s.Name)
+	}
+	return s.raw, nil
+}

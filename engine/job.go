@@ -1,0 +1,208 @@
+// Package engine is the one door into moltrail's quantum-chemistry engine:
+// a validated Job with a canonical byte encoding (whose SHA-256 is the
+// archive's input key), Run(job) → Result, and the method table.
+//
+// Canonical encoding (version CanonicalVersion): the JSON encoding of the
+// Job struct as declared here — fields in declaration order, no
+// indentation, floats in Go's shortest round-trip form, optional sections
+// omitted when absent — after Normalize has filled every default. Two jobs
+// that can give different numbers never share an encoding; when a field is
+// added the version changes.
+package engine
+
+import (
+	"crypto/sha256"
+	"encoding/hex"
+	"encoding/json"
+	"fmt"
+	"math"
+	"strings"
+
+	"moltrail/engine/basis"
+	"moltrail/engine/molecule"
+)
+
+// CanonicalVersion names the canonical-encoding layout of Job.
+const CanonicalVersion = "moltrail-job/1"
+
+// AtomSpec is one atom of the job's geometry, in bohr (the unit the engine
+// computes in, so no conversion enters the hash).
+type AtomSpec struct {
+	Symbol string     `json:"symbol"`
+	Bohr   [3]float64 `json:"xyz_bohr"`
+}
+
+// MoleculeSpec is the job's molecule.
+type MoleculeSpec struct {
+	Name         string     `json:"name"`
+	Charge       int        `json:"charge"`
+	Multiplicity int        `json:"multiplicity"`
+	Atoms        []AtomSpec `json:"atoms"`
+}
+
+// BasisSpec names the orbital basis and pins its content.
+type BasisSpec struct {
+	Name    string        `json:"name"`
+	File    string        `json:"file"`
+	SHA256  string        `json:"sha256"`
+	Angular basis.Angular `json:"angular"`
+	// Inline carries the exact bytes of a user-supplied basis file, so the
+	// record alone can reproduce the calculation. Empty for built-in sets.
+	Inline []byte `json:"inline_base64,omitempty"`
+}
+
+// SCFSettings are the SCF convergence controls.
+type SCFSettings struct {
+	// EnergyTolHartree: converged when |ΔE| between iterations is below this …
+	EnergyTolHartree float64 `json:"energy_tol_hartree"`
+	// DensityTol: … and the RMS change of the density matrix is below this …
+	DensityTol float64 `json:"density_rms_tol"`
+	// GradientTol: … and the largest element of the orbital gradient (FDS − SDF) is below this.
+	GradientTol float64 `json:"orbital_gradient_tol"`
+	MaxIter     int     `json:"max_iterations"`
+	// Guess is "sad" (superposition of atomic densities) or "core".
+	Guess    string `json:"guess"`
+	DIISSize int    `json:"diis_size"`
+	// SchwarzThreshold: ERI shell quartets whose Schwarz bound is below this are skipped.
+	SchwarzThreshold float64 `json:"schwarz_threshold"`
+	// LevelShiftHartree shifts virtual orbitals during the iterations (0 = none).
+	LevelShiftHartree float64 `json:"level_shift_hartree"`
+}
+
+// GridSpec is the full specification of a DFT integration grid.
+type GridSpec struct {
+	Level        string  `json:"level"`
+	RadialScheme string  `json:"radial_scheme"`
+	RadialPoints int     `json:"radial_points"`
+	AngularOrder int     `json:"angular_order"`
+	Partition    string  `json:"partition"`
+	Pruning      string  `json:"pruning"`
+	DensityCut   float64 `json:"density_cutoff"`
+	BasisCut     float64 `json:"basis_cutoff"`
+}
+
+// OriginSpec says where multipoles are taken about.
+type OriginSpec struct {
+	// Kind: "centre-of-mass" (default), "centre-of-charge", "coordinate-origin" or "point".
+	Kind  string     `json:"kind"`
+	Point [3]float64 `json:"point_bohr"`
+}
+
+// CorrelationSettings are MP2-family options.
+type CorrelationSettings struct {
+	FrozenCore bool `json:"frozen_core"`
+	// RelaxedProperties: "finite-field" or "z-vector" (analytic relaxed density); "none" skips them.
+	RelaxedProperties string  `json:"relaxed_properties"`
+	FieldStepAU       float64 `json:"field_step_au"`
+}
+
+// OptSettings are geometry-optimisation controls.
+type OptSettings struct {
+	MaxForce         float64 `json:"max_force_hartree_per_bohr"`
+	RMSForce         float64 `json:"rms_force_hartree_per_bohr"`
+	MaxStep          float64 `json:"max_step_bohr"`
+	EnergyChange     float64 `json:"energy_change_hartree"`
+	MaxSteps         int     `json:"max_steps"`
+	TrustRadiusBohr  float64 `json:"trust_radius_bohr"`
+	Coordinates      string  `json:"coordinates"`
+	GradientMethod   string  `json:"gradient_method"`
+	FiniteDiffStepAU float64 `json:"finite_difference_step_bohr,omitempty"`
+}
+
+// Job is everything that can change a number.
+type Job struct {
+	Version   string       `json:"canonical_version"`
+	Molecule  MoleculeSpec `json:"molecule"`
+	Method    string       `json:"method"`
+	Reference string       `json:"reference"`
+	// Functional names the exact XC definition for DFT methods (e.g.
+	// "b3lyp(vwn-rpa)"), empty otherwise.
+	Functional  string               `json:"functional,omitempty"`
+	Basis       BasisSpec            `json:"basis"`
+	Task        string               `json:"task"`
+	SCF         SCFSettings          `json:"scf"`
+	Grid        *GridSpec            `json:"grid,omitempty"`
+	Correlation *CorrelationSettings `json:"correlation,omitempty"`
+	Origin      OriginSpec           `json:"multipole_origin"`
+	Opt         *OptSettings         `json:"optimization,omitempty"`
+}
+
+// Canonical returns the canonical bytes of a normalised job.
+func (j *Job) Canonical() ([]byte, error) {
+	if j.Version != CanonicalVersion {
+		return nil, fmt.Errorf("job is not normalised (canonical_version %q)", j.Version)
+	}
+	return json.Marshal(j)
+}
+
+// InputKey is the hex SHA-256 of the canonical bytes.
+func (j *Job) InputKey() (string, error) {
+	b, err := j.Canonical()
+	if err != nil {
+		return "", err
+	}
+	s := sha256.Sum256(b)
+	return hex.EncodeToString(s[:]), nil
+}
+
+// MoleculeOf builds the molecule of the job.
+func (j *Job) MoleculeOf() (*molecule.Molecule, error) {
+	m := &molecule.Molecule{Name: j.Molecule.Name, Charge: j.Molecule.Charge, Multiplicity: j.Molecule.Multiplicity}
+	for i, a := range j.Molecule.Atoms {
+		at, err := molecule.NewAtom(a.Symbol, a.Bohr[0], a.Bohr[1], a.Bohr[2])
+		if err != nil {
+			return nil, fmt.Errorf("molecule.atoms[%d]: %v", i, err)
+		}
+		for k := 0; k < 3; k++ {
+			if math.IsNaN(a.Bohr[k]) || math.IsInf(a.Bohr[k], 0) {
+				return nil, fmt.Errorf("molecule.atoms[%d]: coordinate is not finite", i)
+			}
+		}
+		m.Atoms = append(m.Atoms, at)
+	}
+	return m, nil
+}
+
+// SpecFromMolecule converts a molecule to the job's spec.
+func SpecFromMolecule(m *molecule.Molecule) MoleculeSpec {
+	s := MoleculeSpec{Name: m.Name, Charge: m.Charge, Multiplicity: m.Multiplicity}
+	for _, a := range m.Atoms {
+		s.Atoms = append(s.Atoms, AtomSpec{Symbol: a.Symbol, Bohr: a.PosBohr})
+	}
+	return s
+}
+
+// ResolveBasis loads the job's basis set (built-in name, or the inline
+// copy of a user file) and checks its content hash against the job.
+func (j *Job) ResolveBasis() (*basis.Set, error) {
+	var set *basis.Set
+	var err error
+	if len(j.Basis.Inline) > 0 {
+		set, err = basis.ParseBytes(j.Basis.Inline, "inline:"+j.Basis.File)
+	} else {
+		set, err = basis.Builtin(j.Basis.Name)
+	}
+	if err != nil {
+		return nil, err
+	}
+	if j.Basis.SHA256 != "" && set.SHA256 != j.Basis.SHA256 {
+		return nil, &BasisChangedError{Name: j.Basis.Name, Want: j.Basis.SHA256, Have: set.SHA256}
+	}
+	return set, nil
+}
+
+// BasisChangedError says the basis data differs from what the job pinned.
+type BasisChangedError struct{ Name, Want, Have string }
+
+func (e *BasisChangedError) Error() string {
+	return fmt.Sprintf("basis %q data changed: the job pins content hash %s… but the library now has %s…", e.Name, short(e.Want), short(e.Have))
+}
+
+func short(h string) string {
+	if len(h) > 12 {
+		return h[:12]
+	}
+	return h
+}
+
+func lower(s string) string { return strings.ToLower(strings.TrimSpace(s)) }

@@ -1,0 +1,259 @@
+package engine
+
+import (
+	"fmt"
+	"sort"
+	"strings"
+
+	"moltrail/engine/basis"
+	"moltrail/engine/molecule"
+)
+
+// MethodInfo describes one method name accepted by the engine.
+type MethodInfo struct {
+	Name        string
+	Family      string // "hf", "mp2", "dft"
+	Description string
+	// Functional is the stored XC definition for DFT methods.
+	Functional string
+	// SameSpin/OppositeSpin scales for MP2-family methods.
+	SameSpin, OppositeSpin float64
+}
+
+// Methods is the method table (names fixed by the outside contract).
+var Methods = map[string]MethodInfo{
+	"hf":      {Name: "hf", Family: "hf", Description: "Hartree–Fock: RHF for closed shells, UHF otherwise"},
+	"rhf":     {Name: "rhf", Family: "hf", Description: "restricted closed-shell Hartree–Fock"},
+	"uhf":     {Name: "uhf", Family: "hf", Description: "unrestricted Hartree–Fock"},
+	"rohf":    {Name: "rohf", Family: "hf", Description: "restricted open-shell Hartree–Fock"},
+	"mp2":     {Name: "mp2", Family: "mp2", Description: "second-order Møller–Plesset on RHF (closed shell) or UHF", SameSpin: 1, OppositeSpin: 1},
+	"scs-mp2": {Name: "scs-mp2", Family: "mp2", Description: "spin-component-scaled MP2 (Grimme 2003: same-spin 1/3, opposite-spin 6/5)", SameSpin: 1.0 / 3.0, OppositeSpin: 6.0 / 5.0},
+	"svwn5":   {Name: "svwn5", Family: "dft", Functional: "slater+vwn5", Description: "LDA: Slater exchange + VWN5 correlation"},
+	"blyp":    {Name: "blyp", Family: "dft", Functional: "b88+lyp", Description: "GGA: Becke 88 exchange + LYP correlation"},
+	"pbe":     {Name: "pbe", Family: "dft", Functional: "pbe-x+pbe-c", Description: "GGA: PBE exchange and correlation"},
+	"b3lyp":   {Name: "b3lyp", Family: "dft", Functional: "b3lyp(vwn-rpa)", Description: "hybrid: B3LYP with the VWN-RPA local correlation (libxc's B3LYP definition)"},
+	"b3lyp5":  {Name: "b3lyp5", Family: "dft", Functional: "b3lyp5(vwn5)", Description: "hybrid: B3LYP with VWN5 local correlation"},
+	"pbe0":    {Name: "pbe0", Family: "dft", Functional: "pbe0", Description: "hybrid: PBE with 25 % exact exchange"},
+}
+
+// MethodNames lists the method names in a stable order.
+func MethodNames() []string {
+	var out []string
+	for k := range Methods {
+		out = append(out, k)
+	}
+	sort.Strings(out)
+	return out
+}
+
+// Defaults for the SCF. Tight enough that dipoles (4 decimals in debye) and
+// energies (8 decimals in hartree) are converged to their printed digits.
+var DefaultSCF = SCFSettings{
+	EnergyTolHartree: 1e-10,
+	DensityTol:       1e-8,
+	GradientTol:      1e-7,
+	MaxIter:          150,
+	Guess:            "sad",
+	DIISSize:         8,
+	SchwarzThreshold: 1e-12,
+}
+
+// DefaultOrigin is the centre of mass.
+var DefaultOrigin = OriginSpec{Kind: "centre-of-mass"}
+
+// Request is what a user asks for; NewJob turns it into a normalised Job.
+type Request struct {
+	Molecule     *molecule.Molecule
+	Method       string
+	Basis        string // library name/alias or path to a basis JSON file
+	Angular      basis.Angular
+	Task         string
+	FrozenCore   bool
+	SCF          *SCFSettings
+	Grid         string // grid level name for DFT ("" = default)
+	Origin       *OriginSpec
+	Opt          *OptSettings
+	RelaxedProps string
+}
+
+// NewJob validates a request and returns the normalised job.
+func NewJob(r Request) (*Job, error) {
+	if r.Molecule == nil {
+		return nil, fmt.Errorf("no molecule given")
+	}
+	m := r.Molecule.Clone()
+	if err := m.Check(); err != nil {
+		return nil, err
+	}
+	method := lower(r.Method)
+	if method == "" {
+		method = "hf"
+	}
+	info, ok := Methods[method]
+	if !ok {
+		return nil, fmt.Errorf("method %q is not known (known: %s)", r.Method, strings.Join(MethodNames(), ", "))
+	}
+	set, err := basis.Load(r.Basis)
+	if err != nil {
+		return nil, err
+	}
+	if set.Role != "" && set.Role != "orbital" {
+		return nil, fmt.Errorf("basis %q is a %s fitting set, not an orbital basis", set.Name, set.Role)
+	}
+	if el := set.Covers(m); el != "" {
+		return nil, fmt.Errorf("basis %q has no functions for element %s", set.Name, el)
+	}
+	j := &Job{
+		Version:  CanonicalVersion,
+		Molecule: SpecFromMolecule(m),
+		Method:   method,
+		Basis:    BasisSpec{Name: set.Name, File: set.File, SHA256: set.SHA256, Angular: set.Angular},
+		Task:     lower(r.Task),
+		SCF:      DefaultSCF,
+		Origin:   DefaultOrigin,
+	}
+	if r.Angular != "" {
+		j.Basis.Angular = r.Angular
+	}
+	if !strings.HasPrefix(set.File, "builtin:") {
+		raw, err := basis.RawBytes(set)
+		if err != nil {
+			return nil, err
+		}
+		j.Basis.Inline = raw
+	}
+	if r.SCF != nil {
+		j.SCF = *r.SCF
+	}
+	if r.Origin != nil {
+		j.Origin = *r.Origin
+	}
+	if j.Task == "" {
+		j.Task = "energy"
+	}
+	open := m.Multiplicity != 1
+	switch info.Family {
+	case "hf":
+		j.Reference = method
+		if method == "hf" {
+			j.Reference = "rhf"
+			if open {
+				j.Reference = "uhf"
+			}
+		}
+		if j.Reference == "rhf" && open {
+			return nil, fmt.Errorf("method rhf needs a closed shell, but multiplicity is %d: use uhf or rohf", m.Multiplicity)
+		}
+	case "mp2":
+		j.Reference = "rhf"
+		if open {
+			j.Reference = "uhf"
+		}
+		rp := r.RelaxedProps
+		if rp == "" {
+			rp = "finite-field"
+		}
+		j.Correlation = &CorrelationSettings{FrozenCore: r.FrozenCore, RelaxedProperties: rp}
+		if rp == "finite-field" {
+			j.Correlation.FieldStepAU = 1e-3
+		}
+	case "dft":
+		j.Reference = "rks"
+		if open {
+			j.Reference = "uks"
+		}
+		j.Functional = info.Functional
+		g, err := GridForLevel(r.Grid)
+		if err != nil {
+			return nil, err
+		}
+		j.Grid = &g
+	}
+	if r.FrozenCore && info.Family != "mp2" {
+		return nil, fmt.Errorf("frozen core applies to correlated methods (mp2, scs-mp2), not to %s", method)
+	}
+	switch j.Task {
+	case "energy":
+	case "optimize":
+		o := DefaultOpt
+		if r.Opt != nil {
+			o = *r.Opt
+		}
+		j.Opt = &o
+	default:
+		return nil, fmt.Errorf("task %q is not known (energy or optimize)", r.Task)
+	}
+	if err := j.Validate(); err != nil {
+		return nil, err
+	}
+	return j, nil
+}
+
+// DefaultOpt gives bond lengths converged to about 1e-4 Å.
+var DefaultOpt = OptSettings{
+	MaxForce:        3e-5,
+	RMSForce:        2e-5,
+	MaxStep:         1e-4,
+	EnergyChange:    1e-8,
+	MaxSteps:        100,
+	TrustRadiusBohr: 0.3,
+	Coordinates:     "cartesian",
+	GradientMethod:  "analytic",
+}
+
+// Validate checks a normalised job for settings that cannot work.
+func (j *Job) Validate() error {
+	if j.Version != CanonicalVersion {
+		return fmt.Errorf("job canonical_version is %q; this build reads %q", j.Version, CanonicalVersion)
+	}
+	m, err := j.MoleculeOf()
+	if err != nil {
+		return err
+	}
+	if err := m.Check(); err != nil {
+		return err
+	}
+	if _, ok := Methods[j.Method]; !ok {
+		return fmt.Errorf("method %q is not available in this build", j.Method)
+	}
+	s := j.SCF
+	switch {
+	case !(s.EnergyTolHartree > 0):
+		return fmt.Errorf("scf.energy_tol_hartree must be positive")
+	case !(s.DensityTol > 0):
+		return fmt.Errorf("scf.density_rms_tol must be positive")
+	case !(s.GradientTol > 0):
+		return fmt.Errorf("scf.orbital_gradient_tol must be positive")
+	case s.MaxIter < 1:
+		return fmt.Errorf("scf.max_iterations must be at least 1")
+	case s.Guess != "sad" && s.Guess != "core":
+		return fmt.Errorf("scf.guess %q is not known (sad or core)", s.Guess)
+	case s.DIISSize < 0:
+		return fmt.Errorf("scf.diis_size must not be negative")
+	case s.SchwarzThreshold < 0 || s.SchwarzThreshold > 1e-6:
+		return fmt.Errorf("scf.schwarz_threshold %g is outside 0–1e-6", s.SchwarzThreshold)
+	}
+	switch j.Origin.Kind {
+	case "centre-of-mass", "centre-of-charge", "coordinate-origin", "point":
+	default:
+		return fmt.Errorf("multipole_origin.kind %q is not known (centre-of-mass, centre-of-charge, coordinate-origin, point)", j.Origin.Kind)
+	}
+	if j.Basis.Angular != basis.Spherical && j.Basis.Angular != basis.Cartesian {
+		return fmt.Errorf("basis.angular %q is not spherical or cartesian", j.Basis.Angular)
+	}
+	return nil
+}
+
+// OriginBohr resolves the multipole origin of the job for a molecule.
+func (j *Job) OriginBohr(m *molecule.Molecule) [3]float64 {
+	switch j.Origin.Kind {
+	case "centre-of-charge":
+		return m.CentreOfNuclearCharge()
+	case "coordinate-origin":
+		return [3]float64{}
+	case "point":
+		return j.Origin.Point
+	default:
+		return m.CentreOfMass()
+	}
+}
