@@ -30,6 +30,10 @@ import numpy as np  # noqa: E402
 import psi4  # noqa: E402
 
 HERE = os.path.dirname(os.path.abspath(__file__))
+# psi4 drops timer.dat and scratch files into the working directory: keep them out of the tree.
+SCRATCH = "/tmp/moltrail_psi4_gen"
+os.makedirs(SCRATCH, exist_ok=True)
+os.chdir(SCRATCH)
 
 # Only used to turn the Angstrom templates below into the bohr inputs.
 # (CODATA 2014 bohr radius 0.52917721067 A, as psi4 1.3 uses internally.)
