@@ -179,8 +179,8 @@ func parse(b []byte, file string) (*Set, error) {
 		}
 		for i, sh := range shells {
 			where := fmt.Sprintf("basis file %s: elements.%s[%d]", file, el, i)
-			if sh.L < 0 || sh.L > MaxL {
-				return nil, fmt.Errorf("%s: angular momentum l=%d is outside 0–%d", where, sh.L, MaxL)
+			if sh.L < 0 || sh.L > maxFileL {
+				return nil, fmt.Errorf("%s: angular momentum l=%d is outside 0–%d", where, sh.L, maxFileL)
 			}
 			if len(sh.Exponents) == 0 || len(sh.Exponents) != len(sh.Coefficients) {
 				return nil, fmt.Errorf("%s: %d exponents but %d coefficients", where, len(sh.Exponents), len(sh.Coefficients))
@@ -202,8 +202,12 @@ func parse(b []byte, file string) (*Set, error) {
 	return &s, nil
 }
 
-// MaxL is the highest angular momentum the engine handles (g functions).
+// MaxL is the highest angular momentum the engine computes with (g
+// functions). Files may hold higher shells (h, i) for elements the engine
+// then refuses when a molecule needs them.
 const MaxL = 4
+
+const maxFileL = 6
 
 // Covers reports the first element of the molecule the set lacks, or "".
 func (s *Set) Covers(m *molecule.Molecule) string {

@@ -62,6 +62,9 @@ func Build(s *Set, m *molecule.Molecule, angular Angular) (*Molecular, error) {
 	mb := &Molecular{Set: s, Angular: angular}
 	for ia, a := range m.Atoms {
 		for _, sd := range s.Elements[a.Symbol] {
+			if sd.L > MaxL {
+				return nil, fmt.Errorf("basis %q: element %s has l=%d functions, beyond the engine's limit of g (l=%d)", s.Name, a.Symbol, sd.L, MaxL)
+			}
 			// s and p functions are the same in both representations and keep
 			// the Cartesian order (x, y, z); only l ≥ 2 shells become spherical.
 			sh := Shell{L: sd.L, Exponents: append([]float64(nil), sd.Exponents...), Centre: a.PosBohr, Atom: ia, Pure: angular == Spherical && sd.L >= 2}
