@@ -93,9 +93,9 @@ type Deviation struct {
 	Reference   float64 `json:"reference"`
 	Uncertainty float64 `json:"uncertainty"`
 	// RefKind is "experiment" or "theory"; RefSource the publication or handbook.
-	RefKind    string `json:"reference_kind"`
-	RefSource  string `json:"reference_source"`
-	FromMemory bool   `json:"reference_from_memory"`
+	RefKind    string  `json:"reference_kind"`
+	RefSource  string  `json:"reference_source"`
+	FromMemory bool    `json:"reference_from_memory"`
 	Computed   float64 `json:"computed"`
 	// Signed is computed − reference.
 	Signed float64 `json:"signed_deviation"`
