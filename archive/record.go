@@ -1,8 +1,39 @@
 // Package archive keeps moltrail's calculation records: append-only,
 // content-addressed, with full provenance, in a badger key-value store.
+//
+// # Canonical record encoding (RecordFormat "moltrail-record/1")
+//
+// A record's canonical bytes are the encoding/json encoding of the Record
+// struct as declared here: fields in declaration order, no indentation,
+// floats in Go's shortest round-trip form, map keys sorted, lineage always
+// an array and tags always an object (never null). The record id is the
+// lower-case hex SHA-256 of those bytes with ID set to the empty string; the
+// archive stores, exports and imports the same bytes with the id filled in.
+// Because "id" is the first key, the stored bytes differ from the hashed
+// bytes only inside the first string. Any change to any field changes the
+// id. When a field is added or the encoding changes, RecordFormat changes.
 package archive
 
-import "moltrail/engine"
+import (
+	"bytes"
+	"crypto/sha256"
+	"encoding/hex"
+	"encoding/json"
+	"fmt"
+	"sort"
+
+	"moltrail/engine"
+)
+
+// RecordFormat names the canonical-encoding layout of Record.
+const RecordFormat = "moltrail-record/1"
+
+// Lineage relations.
+const (
+	GeometryFrom = "geometry-from"
+	Reproduces   = "reproduces"
+	Recomputes   = "recomputes"
+)
 
 // Code identifies the build that produced a record.
 type Code struct {
@@ -46,4 +77,130 @@ type Record struct {
 	Lineage  []Link            `json:"lineage"`
 	Tags     map[string]string `json:"tags"`
 	Results  engine.Result     `json:"results"`
+	// Format is RecordFormat for records written by this package.
+	Format string `json:"record_format"`
+}
+
+func (r *Record) normalise() {
+	if r.Lineage == nil {
+		r.Lineage = []Link{}
+	}
+	if r.Tags == nil {
+		r.Tags = map[string]string{}
+	}
+}
+
+// Canonical returns the bytes the id is computed from (ID empty).
+func (r *Record) Canonical() ([]byte, error) {
+	c := *r
+	c.ID = ""
+	c.normalise()
+	b, err := json.Marshal(&c)
+	if err != nil {
+		return nil, fmt.Errorf("record cannot be encoded: %v", err)
+	}
+	return b, nil
+}
+
+// ComputeID returns the hex SHA-256 of the canonical bytes.
+func (r *Record) ComputeID() (string, error) {
+	b, err := r.Canonical()
+	if err != nil {
+		return "", err
+	}
+	s := sha256.Sum256(b)
+	return hex.EncodeToString(s[:]), nil
+}
+
+// Seal fills Format, InputKey and ID from the record's content.
+func (r *Record) Seal() error {
+	r.normalise()
+	if r.Format == "" {
+		r.Format = RecordFormat
+	}
+	k, err := r.Input.InputKey()
+	if err != nil {
+		return err
+	}
+	r.InputKey = k
+	id, err := r.ComputeID()
+	if err != nil {
+		return err
+	}
+	r.ID = id
+	return nil
+}
+
+// Encode returns the stored form: the canonical bytes with the id filled in.
+func (r *Record) Encode() ([]byte, error) {
+	c := *r
+	c.normalise()
+	b, err := json.Marshal(&c)
+	if err != nil {
+		return nil, fmt.Errorf("record %s cannot be encoded: %v", short(r.ID), err)
+	}
+	return b, nil
+}
+
+// Check recomputes the input key and the id and reports the first mismatch.
+func (r *Record) Check() error {
+	if r.Format != RecordFormat {
+		return fmt.Errorf("record_format is %q; this build reads %q", r.Format, RecordFormat)
+	}
+	k, err := r.Input.InputKey()
+	if err != nil {
+		return fmt.Errorf("input: %v", err)
+	}
+	if k != r.InputKey {
+		return fmt.Errorf("input_key %s… does not match the input, which hashes to %s…", short(r.InputKey), short(k))
+	}
+	id, err := r.ComputeID()
+	if err != nil {
+		return err
+	}
+	if id != r.ID {
+		return fmt.Errorf("id %s… does not match the content, which hashes to %s…", short(r.ID), short(id))
+	}
+	return nil
+}
+
+// Decode parses a record strictly: unknown fields and trailing data are
+// errors. It does not check the hashes (see Check).
+func Decode(b []byte) (*Record, error) {
+	dec := json.NewDecoder(bytes.NewReader(b))
+	dec.DisallowUnknownFields()
+	var r Record
+	if err := dec.Decode(&r); err != nil {
+		return nil, fmt.Errorf("not a moltrail record: %v", err)
+	}
+	if dec.More() {
+		return nil, fmt.Errorf("not a moltrail record: data after the closing brace")
+	}
+	return &r, nil
+}
+
+// TagList returns the tags as sorted "key=value" strings.
+func (r *Record) TagList() []string {
+	var out []string
+	for k, v := range r.Tags {
+		out = append(out, k+"="+v)
+	}
+	sort.Strings(out)
+	return out
+}
+
+// Formula is the Hill formula of the input molecule ("" if it cannot be built).
+func (r *Record) Formula() string {
+	m, err := r.Input.MoleculeOf()
+	if err != nil {
+		return ""
+	}
+	return m.Formula()
+}
+
+func short(h string) string {
+	if len(h) > 12 {
+		return h[:12]
+	}
+	return h
 }

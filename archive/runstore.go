@@ -1,0 +1,174 @@
+package archive
+
+import (
+	"errors"
+	"fmt"
+	"io"
+	"os"
+	"runtime"
+	"time"
+
+	"moltrail/engine"
+	"moltrail/engine/molecule"
+)
+
+// Computer computes a job (in moltrail: engine.Run). The archive calls it
+// without holding the store open, so other processes can read and write
+// while a calculation runs.
+type Computer func(job *engine.Job, threads int, progress io.Writer) (*engine.Result, error)
+
+// RunRequest is one calculation to run and store.
+type RunRequest struct {
+	Job     *engine.Job
+	Tags    map[string]string
+	Lineage []Link
+	// Force computes even when the archive holds this input at this code version.
+	Force bool
+	// Threads for the computation (0 = all cores); recorded in run.threads.
+	Threads int
+	// Wait bounds waiting for the archive (see OpenOptions.Wait).
+	Wait time.Duration
+	// Log receives progress and remarks (nil = silent).
+	Log io.Writer
+}
+
+// RunOutcome is what RunAndStore did.
+type RunOutcome struct {
+	Record *Record
+	// Cached: the record was already stored and nothing was computed.
+	Cached bool
+	// Recomputed is the stored record a forced run was linked to, if any.
+	Recomputed *Record
+}
+
+// FindSameBuild returns the newest stored record of this input key made by
+// the same code version (see Code.SameBuild), or nil.
+func (s *Store) FindSameBuild(inputKey string, code Code) (*Record, error) {
+	sums, err := s.ByInputKey(inputKey)
+	if err != nil {
+		return nil, err
+	}
+	for i := len(sums) - 1; i >= 0; i-- {
+		r, _, err := s.Get(sums[i].ID)
+		if err != nil {
+			return nil, err
+		}
+		if r.Code.SameBuild(code) {
+			return r, nil
+		}
+	}
+	return nil, nil
+}
+
+// RunAndStore runs one job and stores its record in the archive at dir:
+// when the archive already holds the input at the running code version
+// and Force is false, it returns that record without computing. Otherwise
+// it computes (with the archive closed), builds and seals the record —
+// failed and not-converged runs included — and stores it, linking a
+// forced recomputation to the record it repeats.
+func RunAndStore(dir string, req RunRequest, compute Computer) (*RunOutcome, error) {
+	key, err := req.Job.InputKey()
+	if err != nil {
+		return nil, err
+	}
+	code := CurrentCode()
+	out := &RunOutcome{}
+	lineage := append([]Link{}, req.Lineage...)
+	if st, err := Open(dir, OpenOptions{ReadOnly: true, Wait: req.Wait, Log: req.Log}); err == nil {
+		prev, ferr := st.FindSameBuild(key, code)
+		st.Close()
+		if ferr != nil {
+			return nil, ferr
+		}
+		if prev != nil && !req.Force {
+			out.Record, out.Cached = prev, true
+			return out, nil
+		}
+		if prev != nil {
+			out.Recomputed = prev
+			lineage = append(lineage, Link{Relation: Recomputes, ID: prev.ID})
+		}
+	} else if !errors.Is(err, ErrNoArchive) {
+		return nil, err
+	}
+	rec, err := Compute(req, code, lineage, compute)
+	if err != nil {
+		return nil, err
+	}
+	st, err := Open(dir, OpenOptions{Wait: req.Wait, Log: req.Log})
+	if err != nil {
+		return nil, fmt.Errorf("the calculation finished but could not be stored: %w", err)
+	}
+	defer st.Close()
+	if _, err := st.Put(rec); err != nil {
+		return nil, err
+	}
+	if err := st.Close(); err != nil {
+		return nil, fmt.Errorf("archive %s: closing after the write: %v", dir, err)
+	}
+	out.Record = rec
+	return out, nil
+}
+
+// Compute runs the job and returns the sealed record (not stored).
+func Compute(req RunRequest, code Code, lineage []Link, compute Computer) (*Record, error) {
+	threads := req.Threads
+	if threads <= 0 {
+		threads = runtime.NumCPU()
+	}
+	start := time.Now().UTC()
+	res, cerr := compute(req.Job, req.Threads, req.Log)
+	end := time.Now().UTC()
+	host, _ := os.Hostname()
+	rec := &Record{
+		Input:   *req.Job,
+		Code:    code,
+		Lineage: lineage,
+		Tags:    map[string]string{},
+		Run: Run{StartUTC: start.Format(time.RFC3339Nano), EndUTC: end.Format(time.RFC3339Nano),
+			WallSeconds: end.Sub(start).Seconds(), Host: host, Threads: threads, PeakMemoryMB: peakMemoryMiB()},
+	}
+	for k, v := range req.Tags {
+		rec.Tags[k] = v
+	}
+	switch {
+	case cerr != nil:
+		rec.Results = failedResult(req.Job, cerr.Error())
+	case res == nil:
+		rec.Results = failedResult(req.Job, "the engine returned no result")
+	default:
+		rec.Results = *res
+		switch res.Status {
+		case engine.StatusConverged, engine.StatusNotConverged, engine.StatusFailed:
+		default:
+			rec.Results.Status = engine.StatusFailed
+			rec.Results.Error = fmt.Sprintf("the engine returned the unknown status %q", res.Status)
+		}
+		if rec.Results.GeometryAngstrom == nil {
+			rec.Results.GeometryAngstrom = inputGeometry(req.Job)
+		}
+	}
+	rec.Status = rec.Results.Status
+	if err := rec.Seal(); err != nil {
+		// A result that cannot be encoded (a non-finite number) is kept as a failure.
+		rec.Results = failedResult(req.Job, "the results could not be stored: "+err.Error())
+		rec.Status = rec.Results.Status
+		if err := rec.Seal(); err != nil {
+			return nil, err
+		}
+	}
+	return rec, nil
+}
+
+func failedResult(job *engine.Job, msg string) engine.Result {
+	return engine.Result{Status: engine.StatusFailed, Error: msg, GeometryAngstrom: inputGeometry(job)}
+}
+
+func inputGeometry(job *engine.Job) []engine.GeomAtom {
+	g := []engine.GeomAtom{}
+	for _, a := range job.Molecule.Atoms {
+		g = append(g, engine.GeomAtom{Symbol: a.Symbol, XYZ: [3]float64{
+			a.Bohr[0] * molecule.BohrAngstrom, a.Bohr[1] * molecule.BohrAngstrom, a.Bohr[2] * molecule.BohrAngstrom}})
+	}
+	return g
+}

@@ -1,0 +1,20 @@
+//go:build unix
+
+package archive
+
+import (
+	"runtime"
+	"syscall"
+)
+
+// peakMemoryMiB is the process's peak resident set size.
+func peakMemoryMiB() float64 {
+	var ru syscall.Rusage
+	if err := syscall.Getrusage(syscall.RUSAGE_SELF, &ru); err != nil {
+		return 0
+	}
+	if runtime.GOOS == "darwin" {
+		return float64(ru.Maxrss) / (1 << 20) // bytes
+	}
+	return float64(ru.Maxrss) / 1024 // KiB
+}
