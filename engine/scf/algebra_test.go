@@ -1,0 +1,146 @@
+package scf
+
+import (
+	"math"
+	"testing"
+
+	"gonum.org/v1/gonum/mat"
+
+	"moltrail/engine/molecule"
+)
+
+func TestOrthogonaliser(t *testing.T) {
+	cases := []struct {
+		name    string
+		s       []float64
+		dropped int
+	}{
+		{"well conditioned", []float64{1, 0.5, 0.1, 0.5, 1, 0.3, 0.1, 0.3, 1}, 0},
+		// Functions 1 and 2 almost identical: one eigenvalue ≈ 2e-9.
+		{"near dependence", []float64{1, 1 - 1e-9, 0.2, 1 - 1e-9, 1, 0.2, 0.2, 0.2, 1}, 1},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			s := mat.NewSymDense(3, c.s)
+			o, err := newOrthogonaliser(s, LinearDependenceTol)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if o.dropped != c.dropped || o.nmo() != 3-c.dropped {
+				t.Fatalf("dropped %d (nmo %d), want %d", o.dropped, o.nmo(), c.dropped)
+			}
+			id := o.toOrth(s)
+			for i := 0; i < o.nmo(); i++ {
+				for j := 0; j < o.nmo(); j++ {
+					want := 0.0
+					if i == j {
+						want = 1
+					}
+					if math.Abs(id.At(i, j)-want) > 1e-10 {
+						t.Errorf("(X†SX)[%d,%d] = %g", i, j, id.At(i, j))
+					}
+				}
+			}
+		})
+	}
+}
+
+// TestDIISLinear: for errors linear in F, DIIS recovers the fixed point
+// from two points (common practice, no source).
+func TestDIISLinear(t *testing.T) {
+	d := newDIIS(4)
+	fstar := 3.0
+	for _, f := range []float64{1, 2} {
+		fm := mat.NewSymDense(1, []float64{f})
+		e := mat.NewDense(1, 1, []float64{f - fstar})
+		d.push([]*mat.SymDense{fm}, []*mat.Dense{e})
+	}
+	got := d.extrapolate()[0].At(0, 0)
+	if math.Abs(got-fstar) > 1e-12 {
+		t.Errorf("extrapolated %g, want %g", got, fstar)
+	}
+	// Identical error vectors make the equations singular: the oldest
+	// entries are dropped and the newest kept.
+	d = newDIIS(4)
+	for _, f := range []float64{1, 2, 5} {
+		d.push([]*mat.SymDense{mat.NewSymDense(1, []float64{f})}, []*mat.Dense{mat.NewDense(1, 1, []float64{0.5})})
+	}
+	if got := d.extrapolate()[0].At(0, 0); got != 5 || d.len() != 1 {
+		t.Errorf("singular subspace: got %g with %d vectors, want the newest (5) alone", got, d.len())
+	}
+	// Bounded subspace.
+	d = newDIIS(2)
+	for _, f := range []float64{1, 2, 4} {
+		d.push([]*mat.SymDense{mat.NewSymDense(1, []float64{f})}, []*mat.Dense{mat.NewDense(1, 1, []float64{f - fstar})})
+	}
+	if d.len() != 2 {
+		t.Errorf("subspace holds %d vectors, bound 2", d.len())
+	}
+}
+
+func TestShellOccupations(t *testing.T) {
+	cases := []struct {
+		eps   []float64
+		nelec float64
+		want  []float64
+	}{
+		// Carbon-like: 1s² 2s² 2p² spread over the three p orbitals.
+		{[]float64{-11, -0.7, -0.4, -0.4, -0.4, 0.2}, 6, []float64{2, 2, 2.0 / 3, 2.0 / 3, 2.0 / 3, 0}},
+		{[]float64{-0.5, 0.3}, 1, []float64{1, 0}},
+		{[]float64{-20, -1, -0.5, -0.5, -0.5}, 10, []float64{2, 2, 2, 2, 2}},
+	}
+	for _, c := range cases {
+		got := shellOccupations(c.eps, c.nelec)
+		for i := range got {
+			if math.Abs(got[i]-c.want[i]) > 1e-14 {
+				t.Errorf("eps %v, %g electrons: occupations %v, want %v", c.eps, c.nelec, got, c.want)
+				break
+			}
+		}
+	}
+}
+
+// TestROHFEffective: with Fα, Fβ diagonal in the orbital basis the
+// gradient vanishes and the operator is the spin average; a closed–open
+// coupling in Fβ appears in the gradient, one in Fα does not.
+func TestROHFEffective(t *testing.T) {
+	c := mat.NewDense(3, 3, []float64{1, 0, 0, 0, 1, 0, 0, 0, 1})
+	fa := mat.NewSymDense(3, []float64{-1, 0, 0, 0, -0.5, 0, 0, 0, 1})
+	fb := mat.NewSymDense(3, []float64{-0.8, 0, 0, 0, 0.1, 0, 0, 0, 1.2})
+	eff, g := rohfEffective(fa, fb, c, 1, 2)
+	if maxAbs(g) != 0 {
+		t.Errorf("gradient %v for diagonal Fock matrices", mat.Formatted(g))
+	}
+	if math.Abs(eff.At(1, 1)+0.2) > 1e-15 {
+		t.Errorf("open-shell diagonal %g, want (−0.5+0.1)/2", eff.At(1, 1))
+	}
+	fb.SetSym(0, 1, 0.3)
+	_, g = rohfEffective(fa, fb, c, 1, 2)
+	if g.At(0, 1) != 0.3 || g.At(1, 0) != -0.3 {
+		t.Errorf("closed–open gradient %v, want ±0.3", mat.Formatted(g))
+	}
+	fb.SetSym(0, 1, 0)
+	fa.SetSym(0, 1, 0.3)
+	_, g = rohfEffective(fa, fb, c, 1, 2)
+	if maxAbs(g) != 0 {
+		t.Errorf("closed–open coupling in Fα should not enter the ROHF gradient: %v", mat.Formatted(g))
+	}
+}
+
+// TestHydrogenAtom: one electron, UHF and ROHF are exact within the basis
+// and free of self-interaction. STO-3G hydrogen atom E = −0.466582 Eh
+// (Szabo & Ostlund ch. 3, STO-3G 1s energy for ζ = 1.24; from memory).
+func TestHydrogenAtom(t *testing.T) {
+	m, mb := build(t, "sto-3g", "", 0, 2, molecule.MustAtom("H", 0, 0, 0))
+	for _, ref := range []string{"uhf", "rohf"} {
+		for _, guess := range []string{"sad", "core"} {
+			r := mustRun(t, m, mb, Options{Reference: ref, Guess: guess})
+			if math.Abs(r.Energy+0.466582) > 1e-6 {
+				t.Errorf("%s/%s: E = %.8f, want −0.466582", ref, guess, r.Energy)
+			}
+			if math.Abs(r.S2-0.75) > 1e-12 || math.Abs(r.TwoElectron) > 1e-12 {
+				t.Errorf("%s/%s: <S²> = %.14f, two-electron energy %g", ref, guess, r.S2, r.TwoElectron)
+			}
+		}
+	}
+}

@@ -1,0 +1,129 @@
+package scf
+
+import (
+	"encoding/json"
+	"math"
+	"os"
+	"strings"
+	"testing"
+
+	"moltrail/engine/basis"
+	"moltrail/engine/molecule"
+)
+
+// psi4Case is one entry of testdata/psi4/scf_energies.json.
+type psi4Case struct {
+	Name      string    `json:"name"`
+	Geometry  [][4]any  `json:"geometry_bohr"`
+	Charge    int       `json:"charge"`
+	Mult      int       `json:"multiplicity"`
+	Basis     string    `json:"basis"`
+	Puream    bool      `json:"puream"`
+	Reference string    `json:"reference"`
+	NBasis    int       `json:"n_basis_functions"`
+	NAlpha    int       `json:"n_alpha"`
+	NBeta     int       `json:"n_beta"`
+	Energy    float64   `json:"energy_total_hartree"`
+	Nuclear   float64   `json:"nuclear_repulsion_hartree"`
+	One       float64   `json:"one_electron_energy_hartree"`
+	Two       float64   `json:"two_electron_energy_hartree"`
+	S2        *float64  `json:"s_squared"`
+	EpsA      []float64 `json:"orbital_energies_alpha_hartree"`
+}
+
+func loadPsi4(t testing.TB) []psi4Case {
+	t.Helper()
+	b, err := os.ReadFile("../../testdata/psi4/scf_energies.json")
+	if err != nil {
+		t.Fatalf("reference values: %v", err)
+	}
+	var doc struct {
+		Cases []psi4Case `json:"cases"`
+	}
+	if err := json.Unmarshal(b, &doc); err != nil {
+		t.Fatal(err)
+	}
+	return doc.Cases
+}
+
+func (c psi4Case) build(t testing.TB) (*molecule.Molecule, *basis.Molecular) {
+	t.Helper()
+	var atoms []molecule.Atom
+	for _, g := range c.Geometry {
+		atoms = append(atoms, molecule.MustAtom(g[0].(string), g[1].(float64), g[2].(float64), g[3].(float64)))
+	}
+	ang := basis.Cartesian
+	if c.Puream {
+		ang = basis.Spherical
+	}
+	return build(t, c.Basis, ang, c.Charge, c.Mult, atoms...)
+}
+
+// heavy cases run only without -short.
+func heavy(name string) bool {
+	return strings.Contains(name, "ccpvqz") || strings.Contains(name, "benzene")
+}
+
+// TestPsi4Energies compares total energies (and ⟨S²⟩ for UHF) with psi4
+// 1.3.2, conventional integrals, e_convergence 1e-12, d_convergence 1e-10
+// (testdata/psi4/scf_energies.json).
+func TestPsi4Energies(t *testing.T) {
+	for _, c := range loadPsi4(t) {
+		t.Run(c.Name, func(t *testing.T) {
+			if heavy(c.Name) && testing.Short() {
+				t.Skip("large basis: skipped with -short")
+			}
+			m, mb := c.build(t)
+			if mb.NBasis != c.NBasis {
+				t.Fatalf("%d basis functions, psi4 %d", mb.NBasis, c.NBasis)
+			}
+			r := mustRun(t, m, mb, Options{Reference: c.Reference, EnergyTolHartree: 1e-11, DensityTol: 1e-9, GradientTol: 1e-8})
+			t.Logf("E = %.10f (psi4 %.10f), %d iterations", r.Energy, c.Energy, len(r.Iterations))
+			if r.NAlpha != c.NAlpha || r.NBeta != c.NBeta {
+				t.Errorf("electrons %d/%d, psi4 %d/%d", r.NAlpha, r.NBeta, c.NAlpha, c.NBeta)
+			}
+			if d := r.Energy - c.Energy; math.Abs(d) > 1e-8 {
+				t.Errorf("E = %.10f, psi4 %.10f (difference %.2e)", r.Energy, c.Energy, d)
+			}
+			if d := r.NuclearRepulsion - c.Nuclear; math.Abs(d) > 1e-10 {
+				t.Errorf("Vnn = %.12f, psi4 %.12f", r.NuclearRepulsion, c.Nuclear)
+			}
+			if d := r.OneElectron - c.One; math.Abs(d) > 1e-6 {
+				t.Errorf("one-electron energy %.10f, psi4 %.10f", r.OneElectron, c.One)
+			}
+			if c.S2 != nil {
+				if d := r.S2 - *c.S2; math.Abs(d) > 1e-6 {
+					t.Errorf("<S²> = %.8f, psi4 %.8f", r.S2, *c.S2)
+				}
+			}
+			// Orbital energies of RHF and UHF (alpha) are unique; compare the occupied ones.
+			if c.Reference != "rohf" {
+				for i := 0; i < c.NAlpha && i < len(c.EpsA); i++ {
+					if d := r.Ea[i] - c.EpsA[i]; math.Abs(d) > 1e-6 {
+						t.Errorf("orbital %d energy %.8f, psi4 %.8f", i+1, r.Ea[i], c.EpsA[i])
+						break
+					}
+				}
+			}
+		})
+	}
+}
+
+// TestThreadDeterminism: one and two threads give the same bits.
+func TestThreadDeterminism(t *testing.T) {
+	for _, c := range loadPsi4(t) {
+		if c.Name != "oh_uhf_ccpvdz" && c.Name != "h2o_rhf_ccpvdz" {
+			continue
+		}
+		m, mb := c.build(t)
+		var e [2]float64
+		var it [2]int
+		for k, th := range []int{1, 2} {
+			r := mustRun(t, m, mb, Options{Reference: c.Reference, Threads: th})
+			e[k], it[k] = r.Energy, len(r.Iterations)
+		}
+		if math.Float64bits(e[0]) != math.Float64bits(e[1]) || it[0] != it[1] {
+			t.Errorf("%s: 1 thread %.17g (%d iterations), 2 threads %.17g (%d)", c.Name, e[0], it[0], e[1], it[1])
+		}
+	}
+}
