@@ -1,0 +1,33 @@
+// Package integral computes moltrail's Gaussian integrals: the Boys
+// function, one-electron integrals (overlap, kinetic energy, nuclear
+// attraction to point charges, dipole and second-moment integrals about any
+// origin) and electron-repulsion integrals up to g functions, with the
+// contraction of the latter into Coulomb (J) and exchange (K) matrices.
+//
+// Algorithm: McMurchie–Davidson (L. E. McMurchie and E. R. Davidson,
+// J. Comput. Phys. 26, 218 (1978)). A product of two Gaussians is expanded
+// in Hermite Gaussians with coefficients E^{ab}_{tuv}; one-electron
+// integrals and ERIs then follow from the Hermite Coulomb integrals
+// R_tuv built from the Boys function. Shell pairs are prepared once
+// (Gaussian-product exponent p, centre P, prefactor, and the Hermite
+// coefficients already transformed to the final normalised Cartesian or
+// spherical functions of each shell), so a quartet is two small matrix
+// contractions around R per primitive quartet.
+//
+// Screening: primitive pairs with negligible prefactor (PrimitiveThreshold)
+// are dropped; shell quartets with Q_ij·Q_kl below the Schwarz threshold
+// (DefaultSchwarzThreshold unless set) are skipped; J/K builds use the
+// 8-fold permutational symmetry of (ij|kl). The unique screened integrals
+// are stored when they fit the memory budget; otherwise each build
+// recomputes them (direct mode) and also skips quartets whose Schwarz bound
+// times the largest density element they meet is below the threshold.
+//
+// Determinism: a J/K build is split into a fixed number of work units, each
+// with its own accumulators, summed in a fixed order, so the result has the
+// same bits whatever the number of threads.
+//
+// Function order and normalisation are those of package basis: each
+// function is normalised; spherical shells (l ≥ 2) are real solid
+// harmonics m = −l..l (basis.CartToSpherical). Everything is in atomic
+// units, positions in bohr.
+package integral

@@ -1,0 +1,415 @@
+package integral
+
+import (
+	"fmt"
+	"math"
+	"sort"
+	"sync"
+	"sync/atomic"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// numChunks is the fixed number of work units of a J/K build. Each unit
+// owns its accumulation buffers and the units are summed in index order, so
+// the result does not depend on the number of threads.
+const numChunks = 32
+
+// chunk is a fixed set of bra shell pairs; for each, all ket pairs Q ≤ P
+// that pass the Schwarz test are processed in ascending order.
+type chunk struct {
+	rows []int32
+	vals []float64 // in-core integrals in processing order
+	jAcc [][]float64
+	kAcc [][]float64
+}
+
+type incore struct {
+	chunks   []*chunk
+	inCore   bool
+	stored   int64
+	unique   int64 // Schwarz-surviving unique quartets
+	screened int64 // quartets dropped by the Schwarz test
+	filled   bool
+}
+
+// Stats reports what the two-electron engine has done.
+type Stats struct {
+	Shells, ShellPairs   int
+	SchwarzThreshold     float64
+	UniqueQuartets       int64 // Schwarz-surviving unique shell quartets
+	SchwarzScreened      int64 // unique shell quartets dropped by the Schwarz test
+	InCore               bool  // integrals stored (true) or recomputed per build
+	StoredIntegrals      int64
+	StoredBytes          int64
+	QuartetsComputed     int64 // shell quartets evaluated so far (all calls)
+	DensityScreened      int64 // quartets skipped by density screening (direct mode)
+	JKBuilds             int64
+	MemoryBudgetBytes    int64
+	Threads              int
+	PrimitiveThreshold   float64
+	SchwarzScreenedShare float64
+}
+
+// Stats returns counters for the record. Quartet counts of the J/K build
+// are known after the first JK call.
+func (e *ERI) Stats() Stats {
+	s := Stats{
+		Shells: len(e.mb.Shells), ShellPairs: len(e.pairs), SchwarzThreshold: e.thr,
+		QuartetsComputed: e.stats.computed.Load(), DensityScreened: e.stats.densitySkipped.Load(),
+		JKBuilds: e.stats.builds.Load(), MemoryBudgetBytes: e.budget, Threads: e.threads,
+		PrimitiveThreshold: PrimitiveThreshold,
+	}
+	if st := e.store; st != nil {
+		s.UniqueQuartets, s.SchwarzScreened, s.InCore = st.unique, st.screened, st.inCore
+		if st.inCore {
+			s.StoredIntegrals = st.stored
+			s.StoredBytes = 8 * st.stored
+		}
+		if tot := st.unique + st.screened; tot > 0 {
+			s.SchwarzScreenedShare = float64(st.screened) / float64(tot)
+		}
+	}
+	return s
+}
+
+// String is a one-line summary.
+func (s Stats) String() string {
+	mode := "direct"
+	if s.InCore {
+		mode = fmt.Sprintf("in-core %.1f MiB", float64(s.StoredBytes)/(1<<20))
+	}
+	return fmt.Sprintf("%d shells, %d quartets kept, %d dropped by Schwarz < %.0e, %s, %d computed, %d density-skipped, %d J/K builds",
+		s.Shells, s.UniqueQuartets, s.SchwarzScreened, s.SchwarzThreshold, mode, s.QuartetsComputed, s.DensityScreened, s.JKBuilds)
+}
+
+// quartetCost is a rough operation count used to balance the chunks.
+func quartetCost(A, B *pairData) float64 {
+	return float64(A.np*B.np)*float64(A.nh*B.nh*(1+B.nf)+16) + float64(A.np*A.nf*A.nh*B.nf)
+}
+
+// setup decides in-core or direct and distributes bra pairs over chunks.
+func (e *ERI) setup() {
+	np := len(e.pairs)
+	st := &incore{}
+	rowCost := make([]float64, np)
+	rowVals := make([]int64, np)
+	for P := 0; P < np; P++ {
+		A := &e.pairs[P]
+		qp := e.schwarz[P]
+		for Q := 0; Q <= P; Q++ {
+			if qp*e.schwarz[Q] < e.thr {
+				st.screened++
+				continue
+			}
+			B := &e.pairs[Q]
+			st.unique++
+			rowVals[P] += int64(A.nf * B.nf)
+			rowCost[P] += quartetCost(A, B)
+		}
+	}
+	var total int64
+	for _, v := range rowVals {
+		total += v
+	}
+	st.stored = total
+	st.inCore = 8*total <= e.budget
+	// Longest-processing-time assignment of rows to chunks, in a fixed order.
+	order := make([]int, np)
+	for i := range order {
+		order[i] = i
+	}
+	sort.SliceStable(order, func(a, b int) bool { return rowCost[order[a]] > rowCost[order[b]] })
+	nc := numChunks
+	if np < nc {
+		nc = np
+	}
+	st.chunks = make([]*chunk, nc)
+	load := make([]float64, nc)
+	for i := range st.chunks {
+		st.chunks[i] = &chunk{}
+	}
+	for _, P := range order {
+		if rowCost[P] == 0 {
+			continue
+		}
+		best := 0
+		for c := 1; c < nc; c++ {
+			if load[c] < load[best] {
+				best = c
+			}
+		}
+		load[best] += rowCost[P]
+		st.chunks[best].rows = append(st.chunks[best].rows, int32(P))
+	}
+	for _, c := range st.chunks {
+		sort.Slice(c.rows, func(a, b int) bool { return c.rows[a] < c.rows[b] })
+	}
+	e.store = st
+}
+
+// JK returns, for each density D[n], J[n]_μν = Σ (μν|λσ) D_λσ and, when
+// wantK, K[n]_μν = Σ (μλ|νσ) D_λσ. The work runs on Options.Threads
+// goroutines; the result is bit-identical for any thread count. Calls are
+// serialised.
+func (e *ERI) JK(D []*mat.SymDense, wantK bool) (J, K []*mat.SymDense) {
+	e.jkMu.Lock()
+	defer e.jkMu.Unlock()
+	n := e.mb.NBasis
+	nd := len(D)
+	dens := make([][]float64, nd)
+	for d, m := range D {
+		if m.SymmetricDim() != n {
+			panic(fmt.Sprintf("integral: JK density %d has dimension %d, the basis has %d functions", d, m.SymmetricDim(), n))
+		}
+		dens[d] = make([]float64, n*n)
+		for a := 0; a < n; a++ {
+			for b := 0; b < n; b++ {
+				dens[d][a*n+b] = m.At(a, b)
+			}
+		}
+	}
+	if e.store == nil {
+		e.setup()
+	}
+	st := e.store
+	mode := modeDirect
+	if st.inCore {
+		mode = modeReplay
+		if !st.filled {
+			mode = modeStore
+		}
+	}
+	var dmax []float64
+	if mode == modeDirect {
+		dmax = e.densityBlockMax(dens)
+	}
+	for _, c := range st.chunks {
+		c.jAcc = resize(c.jAcc, nd, n*n)
+		if wantK {
+			c.kAcc = resize(c.kAcc, nd, n*n)
+		}
+	}
+	var next atomic.Int64
+	var wg sync.WaitGroup
+	threads := e.threads
+	if threads > len(st.chunks) {
+		threads = len(st.chunks)
+	}
+	for t := 0; t < threads; t++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			w := e.getWork()
+			defer e.workPool.Put(w)
+			for {
+				k := int(next.Add(1) - 1)
+				if k >= len(st.chunks) {
+					return
+				}
+				e.runChunk(st.chunks[k], mode, dens, dmax, wantK, w)
+			}
+		}()
+	}
+	wg.Wait()
+	if mode == modeStore {
+		st.filled = true
+	}
+	e.stats.builds.Add(1)
+	J = make([]*mat.SymDense, nd)
+	if wantK {
+		K = make([]*mat.SymDense, nd)
+	}
+	for d := 0; d < nd; d++ {
+		ja := make([]float64, n*n)
+		var ka []float64
+		if wantK {
+			ka = make([]float64, n*n)
+		}
+		for _, c := range st.chunks {
+			for x, v := range c.jAcc[d] {
+				ja[x] += v
+			}
+			if wantK {
+				for x, v := range c.kAcc[d] {
+					ka[x] += v
+				}
+			}
+		}
+		jm := mat.NewSymDense(n, nil)
+		for a := 0; a < n; a++ {
+			for b := a; b < n; b++ {
+				jm.SetSym(a, b, 2*(ja[a*n+b]+ja[b*n+a]))
+			}
+		}
+		J[d] = jm
+		if wantK {
+			km := mat.NewSymDense(n, nil)
+			for a := 0; a < n; a++ {
+				for b := a; b < n; b++ {
+					km.SetSym(a, b, ka[a*n+b]+ka[b*n+a])
+				}
+			}
+			K[d] = km
+		}
+	}
+	return J, K
+}
+
+func resize(b [][]float64, nd, size int) [][]float64 {
+	if len(b) != nd {
+		b = make([][]float64, nd)
+	}
+	for d := range b {
+		if len(b[d]) != size {
+			b[d] = make([]float64, size)
+		} else {
+			for k := range b[d] {
+				b[d][k] = 0
+			}
+		}
+	}
+	return b
+}
+
+const (
+	modeDirect = iota
+	modeStore
+	modeReplay
+)
+
+// densityBlockMax is max |D_μν| per shell pair over all densities.
+func (e *ERI) densityBlockMax(dens [][]float64) []float64 {
+	sh := e.mb.Shells
+	n := e.mb.NBasis
+	out := make([]float64, len(sh)*len(sh))
+	for i := range sh {
+		for j := range sh {
+			m := 0.0
+			for _, d := range dens {
+				for a := 0; a < sh[i].NFunc(); a++ {
+					for b := 0; b < sh[j].NFunc(); b++ {
+						m = math.Max(m, math.Abs(d[(e.mb.Offsets[i]+a)*n+e.mb.Offsets[j]+b]))
+					}
+				}
+			}
+			out[i*len(sh)+j] = m
+		}
+	}
+	return out
+}
+
+func (e *ERI) runChunk(c *chunk, mode int, dens [][]float64, dmax []float64, wantK bool, w *work) {
+	ns := len(e.mb.Shells)
+	var off int
+	if mode == modeStore {
+		c.vals = c.vals[:0]
+	}
+	var computed, dskip int64
+	for _, P32 := range c.rows {
+		P := int(P32)
+		A := &e.pairs[P]
+		qp := e.schwarz[P]
+		for Q := 0; Q <= P; Q++ {
+			if qp*e.schwarz[Q] < e.thr {
+				continue
+			}
+			B := &e.pairs[Q]
+			nv := A.nf * B.nf
+			var blk []float64
+			switch mode {
+			case modeReplay:
+				blk = c.vals[off : off+nv]
+				off += nv
+			case modeStore:
+				start := len(c.vals)
+				c.vals = append(c.vals, make([]float64, nv)...)
+				blk = c.vals[start : start+nv]
+				e.quartet(A, B, w, blk)
+				computed++
+			default:
+				i, j, k, l := A.i, A.j, B.i, B.j
+				dm := 4 * dmax[k*ns+l]
+				dm = math.Max(dm, 4*dmax[i*ns+j])
+				dm = math.Max(dm, dmax[i*ns+k])
+				dm = math.Max(dm, dmax[i*ns+l])
+				dm = math.Max(dm, dmax[j*ns+k])
+				dm = math.Max(dm, dmax[j*ns+l])
+				if qp*e.schwarz[Q]*dm < e.thr {
+					dskip++
+					continue
+				}
+				blk = w.out[:nv]
+				e.quartet(A, B, w, blk)
+				computed++
+			}
+			e.contract(A, B, P == Q, blk, dens, c, wantK)
+		}
+	}
+	e.stats.computed.Add(computed)
+	e.stats.densitySkipped.Add(dskip)
+}
+
+// contract adds one unique quartet's contributions (scaled for its
+// degeneracy) to the chunk's accumulators: A[μν] += v D[λσ], A[λσ] += v D[μν]
+// for J = 2(A+Aᵀ), and the four K terms for K = B+Bᵀ.
+func (e *ERI) contract(A, B *pairData, samePair bool, blk []float64, dens [][]float64, c *chunk, wantK bool) {
+	n := e.mb.NBasis
+	oi, oj := e.mb.Offsets[A.i], e.mb.Offsets[A.j]
+	ok, ol := e.mb.Offsets[B.i], e.mb.Offsets[B.j]
+	ni, nj, nk, nl := A.nfa, A.nfb, B.nfa, B.nfb
+	deg := 1.0
+	if A.i == A.j {
+		deg *= 0.5
+	}
+	if B.i == B.j {
+		deg *= 0.5
+	}
+	if samePair {
+		deg *= 0.5
+	}
+	for d, D := range dens {
+		ja := c.jAcc[d]
+		var ka []float64
+		if wantK {
+			ka = c.kAcc[d]
+		}
+		for a := 0; a < ni; a++ {
+			mu := oi + a
+			for b := 0; b < nj; b++ {
+				nu := oj + b
+				dmn := deg * D[mu*n+nu]
+				row := blk[(a*nj+b)*nk*nl : (a*nj+b+1)*nk*nl]
+				jmn := 0.0
+				for cc := 0; cc < nk; cc++ {
+					la := ok + cc
+					r4 := row[cc*nl : (cc+1)*nl]
+					dl := D[la*n+ol : la*n+ol+nl]
+					jl := ja[la*n+ol : la*n+ol+nl]
+					for dd, v := range r4 {
+						jmn += v * dl[dd]
+						jl[dd] += v * dmn
+					}
+					if wantK {
+						dmuS := D[mu*n+ol : mu*n+ol+nl]
+						dnuS := D[nu*n+ol : nu*n+ol+nl]
+						dnl := deg * D[nu*n+la]
+						dml := deg * D[mu*n+la]
+						kmS := ka[mu*n+ol : mu*n+ol+nl]
+						knS := ka[nu*n+ol : nu*n+ol+nl]
+						kml, knl := 0.0, 0.0
+						for dd, v := range r4 {
+							kml += v * dnuS[dd]
+							knl += v * dmuS[dd]
+							kmS[dd] += v * dnl
+							knS[dd] += v * dml
+						}
+						ka[mu*n+la] += deg * kml
+						ka[nu*n+la] += deg * knl
+					}
+				}
+				ja[mu*n+nu] += deg * jmn
+			}
+		}
+	}
+}
