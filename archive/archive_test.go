@@ -2,10 +2,10 @@ package archive
 
 import (
 	"bytes"
-	"io"
 	"encoding/json"
 	"errors"
 	"fmt"
+	"io"
 	"os"
 	"os/exec"
 	"path/filepath"

@@ -134,12 +134,17 @@ func ReadRecords(r io.Reader, source string) ([]*Record, []int, error) {
 // records already present are skipped (never overwritten); the rest are
 // stored.
 func (s *Store) Import(r io.Reader, source string) (ImportReport, error) {
-	rep := ImportReport{Source: source, Refused: []Refusal{}}
 	recs, lines, err := ReadRecords(r, source)
 	if err != nil {
-		return rep, err
+		return ImportReport{Source: source, Refused: []Refusal{}}, err
 	}
-	rep.Lines = len(recs)
+	return s.ImportRecords(recs, lines, source)
+}
+
+// ImportRecords stores records read by ReadRecords (lines are their line
+// numbers in source): hash mismatches are refused, present ids skipped.
+func (s *Store) ImportRecords(recs []*Record, lines []int, source string) (ImportReport, error) {
+	rep := ImportReport{Source: source, Refused: []Refusal{}, Lines: len(recs)}
 	var good []*Record
 	for i, rec := range recs {
 		if err := rec.Check(); err != nil {

@@ -1,0 +1,337 @@
+package main
+
+import (
+	"errors"
+	"flag"
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+	"strings"
+	"time"
+
+	"moltrail/archive"
+)
+
+func init() {
+	register(Command{Name: "list", Summary: "stored records, one line each (filters: molecule, formula, method, basis, tag, status, since)", Run: cmdList})
+	register(Command{Name: "show", Summary: "one record, whole (ID or a unique prefix)", Run: cmdShow})
+	register(Command{Name: "verify", Summary: "re-hash every record; names each one that does not match", Run: cmdVerify})
+	register(Command{Name: "export", Summary: "write records (all or filtered) as JSON lines", Run: cmdExport})
+	register(Command{Name: "import", Summary: "read JSON-lines records: validated, hash-checked, never overwriting", Run: cmdImport})
+	register(Command{Name: "note", Summary: "attach a remark to a record (the record itself never changes)", Run: cmdNote})
+}
+
+type filterFlags struct {
+	molecule, formula, method, basis, status, since string
+	tags                                            multiFlag
+}
+
+func addFilterFlags(fs *flag.FlagSet) *filterFlags {
+	f := &filterFlags{}
+	fs.StringVar(&f.molecule, "molecule", "", "molecule name (case-insensitive)")
+	fs.StringVar(&f.formula, "formula", "", "Hill formula, e.g. H2O")
+	fs.StringVar(&f.method, "method", "", "method")
+	fs.StringVar(&f.basis, "basis", "", "basis set name")
+	fs.StringVar(&f.status, "status", "", "converged, not_converged or failed")
+	fs.Var(&f.tags, "tag", "KEY=VALUE (repeatable; all must match)")
+	fs.StringVar(&f.since, "since", "", "started at or after: 2006-01-02, an RFC 3339 time, or a span back from now (36h, 7d)")
+	return f
+}
+
+func (f *filterFlags) filter() (archive.Filter, error) {
+	out := archive.Filter{Molecule: f.molecule, Formula: f.formula, Method: f.method, Basis: f.basis, Status: f.status, Tags: f.tags}
+	switch f.status {
+	case "", "converged", "not_converged", "failed":
+	default:
+		return out, fmt.Errorf("--status %q is not converged, not_converged or failed", f.status)
+	}
+	for _, t := range f.tags {
+		if k, _, ok := strings.Cut(t, "="); !ok || k == "" {
+			return out, fmt.Errorf("--tag %q must be KEY=VALUE", t)
+		}
+	}
+	if f.since != "" {
+		t, err := archive.ParseSince(f.since, time.Now())
+		if err != nil {
+			return out, err
+		}
+		out.Since = t
+	}
+	return out, nil
+}
+
+func cmdList(args []string, stdout, stderr io.Writer) int {
+	fs := newFlags("list", stderr, "[filters] [--json]")
+	af := addArchiveFlags(fs)
+	ff := addFilterFlags(fs)
+	asJSON := fs.Bool("json", false, "print a JSON array of record summaries")
+	pos, code, ok := parseFlags(fs, args)
+	if !ok {
+		return code
+	}
+	if len(pos) > 0 {
+		fmt.Fprintf(stderr, "moltrail list: unexpected argument %q (filters are flags)\n", pos[0])
+		return exitUsage
+	}
+	f, err := ff.filter()
+	if err != nil {
+		return fail(stderr, exitUsage, "list", err)
+	}
+	st, code, err := af.open(true, stderr)
+	if err != nil {
+		return fail(stderr, code, "list", err)
+	}
+	defer st.Close()
+	sums, err := st.List(f)
+	if err != nil {
+		return fail(stderr, exitFailed, "list", err)
+	}
+	if *asJSON {
+		if sums == nil {
+			sums = []archive.Summary{}
+		}
+		printJSON(stdout, sums)
+		return exitOK
+	}
+	if len(sums) == 0 {
+		fmt.Fprintln(stdout, "no records match")
+		return exitOK
+	}
+	t := &table{head: []string{"id", "started UTC", "molecule", "formula", "method", "basis", "status", "energy/hartree", "tags"},
+		right: []bool{false, false, false, false, false, false, false, true, false}}
+	for _, s := range sums {
+		t.add(s.ID[:12], utc(s.StartUTC), s.Molecule, s.Formula, s.Method, s.Basis+angularMark(s.Angular), s.Status, energyCell(s.Status, s.EnergyHartree), strings.Join(s.Tags, " "))
+	}
+	t.write(stdout)
+	fmt.Fprintf(stdout, "%d record(s); ° marks Cartesian d/f functions\n", len(sums))
+	return exitOK
+}
+
+func angularMark(a string) string {
+	if a == "cartesian" {
+		return "°"
+	}
+	return ""
+}
+
+func cmdShow(args []string, stdout, stderr io.Writer) int {
+	fs := newFlags("show", stderr, "ID [--json]")
+	af := addArchiveFlags(fs)
+	asJSON := fs.Bool("json", false, "print exactly the stored record")
+	pos, code, ok := parseFlags(fs, args)
+	if !ok {
+		return code
+	}
+	if len(pos) != 1 {
+		fmt.Fprintln(stderr, "moltrail show: give one record id (or a unique prefix of at least 4 hex digits)")
+		return exitUsage
+	}
+	st, code, err := af.open(true, stderr)
+	if err != nil {
+		return fail(stderr, code, "show", err)
+	}
+	defer st.Close()
+	id, err := st.Resolve(pos[0])
+	if err != nil {
+		return fail(stderr, exitUsage, "show", err)
+	}
+	rec, raw, err := st.Get(id)
+	if err != nil {
+		return fail(stderr, exitFailed, "show", err)
+	}
+	if *asJSON {
+		fmt.Fprintf(stdout, "%s\n", raw)
+		return exitOK
+	}
+	notes, _ := st.Notes(id)
+	writeRecord(stdout, rec, notes)
+	if err := rec.Check(); err != nil {
+		fmt.Fprintf(stderr, "moltrail show: warning: record %s does not verify: %v\n", id[:12], err)
+		return exitFailed
+	}
+	return exitOK
+}
+
+func cmdVerify(args []string, stdout, stderr io.Writer) int {
+	fs := newFlags("verify", stderr, "[--json]")
+	af := addArchiveFlags(fs)
+	asJSON := fs.Bool("json", false, "print the report as JSON")
+	pos, code, ok := parseFlags(fs, args)
+	if !ok {
+		return code
+	}
+	if len(pos) > 0 {
+		fmt.Fprintf(stderr, "moltrail verify: unexpected argument %q\n", pos[0])
+		return exitUsage
+	}
+	st, code, err := af.open(true, stderr)
+	if err != nil {
+		return fail(stderr, code, "verify", err)
+	}
+	defer st.Close()
+	rep, err := st.Verify()
+	if err != nil {
+		return fail(stderr, exitFailed, "verify", err)
+	}
+	if *asJSON {
+		printJSON(stdout, rep)
+	} else if len(rep.Problems) == 0 {
+		fmt.Fprintf(stdout, "verified %d record(s) and %d note(s) in %s: every hash matches\n", rep.Records, rep.Notes, af.path())
+	} else {
+		for _, p := range rep.Problems {
+			fmt.Fprintf(stdout, "MISMATCH %s  %s\n", p.ID, p.Problem)
+		}
+		fmt.Fprintf(stdout, "%d of %d record(s)/note(s) in %s do not verify\n", len(rep.Problems), rep.Records+rep.Notes, af.path())
+	}
+	for _, p := range rep.Problems {
+		fmt.Fprintf(stderr, "moltrail verify: record %s: %s\n", p.ID, p.Problem)
+	}
+	if len(rep.Problems) > 0 {
+		return exitFailed
+	}
+	return exitOK
+}
+
+func cmdExport(args []string, stdout, stderr io.Writer) int {
+	fs := newFlags("export", stderr, "--out F.jsonl [filters]")
+	af := addArchiveFlags(fs)
+	ff := addFilterFlags(fs)
+	out := fs.String("out", "", "output file (JSON lines; - for stdout)")
+	asJSON := fs.Bool("json", false, "print a JSON summary (needs --out FILE)")
+	pos, code, ok := parseFlags(fs, args)
+	if !ok {
+		return code
+	}
+	if len(pos) > 0 || *out == "" {
+		fmt.Fprintln(stderr, "moltrail export: give --out FILE.jsonl (or --out - for stdout) and filters as flags")
+		return exitUsage
+	}
+	if *out == "-" && *asJSON {
+		fmt.Fprintln(stderr, "moltrail export: --json needs --out FILE (stdout carries the records)")
+		return exitUsage
+	}
+	f, err := ff.filter()
+	if err != nil {
+		return fail(stderr, exitUsage, "export", err)
+	}
+	st, code, err := af.open(true, stderr)
+	if err != nil {
+		return fail(stderr, code, "export", err)
+	}
+	defer st.Close()
+	if *out == "-" {
+		n, err := st.Export(stdout, f)
+		if err != nil {
+			return fail(stderr, exitFailed, "export", err)
+		}
+		fmt.Fprintf(stderr, "moltrail export: %d record(s)\n", n)
+		return exitOK
+	}
+	tmp, err := os.CreateTemp(filepath.Dir(*out), ".moltrail-export-*")
+	if err != nil {
+		return fail(stderr, exitUsage, "export", fmt.Errorf("cannot write next to %s: %v", *out, err))
+	}
+	n, err := st.Export(tmp, f)
+	if cerr := tmp.Close(); err == nil {
+		err = cerr
+	}
+	if err == nil {
+		err = os.Rename(tmp.Name(), *out)
+	}
+	if err != nil {
+		os.Remove(tmp.Name())
+		return fail(stderr, exitFailed, "export", fmt.Errorf("%s: %v", *out, err))
+	}
+	if *asJSON {
+		printJSON(stdout, map[string]any{"out": *out, "records": n})
+	} else {
+		fmt.Fprintf(stdout, "wrote %d record(s) to %s\n", n, *out)
+	}
+	return exitOK
+}
+
+func cmdImport(args []string, stdout, stderr io.Writer) int {
+	fs := newFlags("import", stderr, "F.jsonl [--json]")
+	af := addArchiveFlags(fs)
+	asJSON := fs.Bool("json", false, "print the summary as JSON")
+	pos, code, ok := parseFlags(fs, args)
+	if !ok {
+		return code
+	}
+	if len(pos) != 1 {
+		fmt.Fprintln(stderr, "moltrail import: give one JSON-lines file")
+		return exitUsage
+	}
+	fh, err := os.Open(pos[0])
+	if err != nil {
+		return fail(stderr, exitUsage, "import", fmt.Errorf("cannot open %s: %v", pos[0], err))
+	}
+	defer fh.Close()
+	// Read and validate the whole file before opening the archive for writing.
+	recs, lines, err := archive.ReadRecords(fh, pos[0])
+	if err != nil {
+		return fail(stderr, exitUsage, "import", fmt.Errorf("%v; nothing was imported", err))
+	}
+	st, code, err := af.open(false, stderr)
+	if err != nil {
+		return fail(stderr, code, "import", err)
+	}
+	defer st.Close()
+	rep, err := st.ImportRecords(recs, lines, pos[0])
+	if err != nil {
+		return fail(stderr, exitFailed, "import", err)
+	}
+	if err := st.Close(); err != nil {
+		return fail(stderr, exitFailed, "import", err)
+	}
+	for _, r := range rep.Refused {
+		fmt.Fprintf(stderr, "moltrail import: %s\n", r.Reason)
+	}
+	if *asJSON {
+		printJSON(stdout, rep)
+	} else {
+		fmt.Fprintf(stdout, "%s: %d record(s) read, %d imported, %d already present (skipped), %d refused\n",
+			pos[0], rep.Lines, rep.Imported, rep.Skipped, len(rep.Refused))
+	}
+	if len(rep.Refused) > 0 {
+		return exitFailed
+	}
+	return exitOK
+}
+
+func cmdNote(args []string, stdout, stderr io.Writer) int {
+	fs := newFlags("note", stderr, "ID TEXT…")
+	af := addArchiveFlags(fs)
+	asJSON := fs.Bool("json", false, "print the stored note as JSON")
+	pos, code, ok := parseFlags(fs, args)
+	if !ok {
+		return code
+	}
+	if len(pos) < 2 {
+		fmt.Fprintln(stderr, "moltrail note: give a record id and the note text")
+		return exitUsage
+	}
+	st, code, err := af.open(false, stderr)
+	if err != nil {
+		return fail(stderr, code, "note", err)
+	}
+	defer st.Close()
+	id, err := st.Resolve(pos[0])
+	if err != nil {
+		return fail(stderr, exitUsage, "note", err)
+	}
+	n, err := st.AddNote(id, strings.Join(pos[1:], " "), time.Now())
+	if err != nil {
+		if errors.Is(err, archive.ErrNoArchive) {
+			return fail(stderr, exitUsage, "note", err)
+		}
+		return fail(stderr, exitFailed, "note", err)
+	}
+	if *asJSON {
+		printJSON(stdout, n)
+	} else {
+		fmt.Fprintf(stdout, "note %s added to record %s\n", n.ID[:12], id[:12])
+	}
+	return exitOK
+}

@@ -1,0 +1,149 @@
+package main
+
+import (
+	"fmt"
+	"io"
+	"os"
+
+	"moltrail/archive"
+	"moltrail/engine"
+	"moltrail/engine/basis"
+	"moltrail/engine/molecule"
+)
+
+func init() {
+	register(Command{Name: "run", Summary: "run one calculation and store it (or return the stored one)", Run: cmdRun})
+}
+
+// engineCompute is the archive's Computer backed by the engine.
+func engineCompute(job *engine.Job, threads int, progress io.Writer) (*engine.Result, error) {
+	return engine.Run(job, engine.RunOptions{Threads: threads, Progress: progress})
+}
+
+func cmdRun(args []string, stdout, stderr io.Writer) int {
+	fs := newFlags("run", stderr, "[flags] MOLECULE.xyz")
+	af := addArchiveFlags(fs)
+	method := fs.String("method", "hf", "method: "+joinNames(engine.MethodNames()))
+	basisName := fs.String("basis", "cc-pvdz", "basis set name or alias (see `moltrail basis`), or a basis JSON file")
+	charge := fs.Int("charge", 0, "total charge")
+	mult := fs.Int("multiplicity", 0, "spin multiplicity (default: the lowest the electron count allows)")
+	task := fs.String("task", "energy", "energy or optimize")
+	frozen := fs.Bool("frozen-core", false, "correlated methods: freeze the chemical core")
+	var tags multiFlag
+	fs.Var(&tags, "tag", "KEY=VALUE stored with the record (repeatable)")
+	force := fs.Bool("force", false, "compute again even if the archive holds this input at this code version")
+	asJSON := fs.Bool("json", false, "print the stored record as JSON")
+	name := fs.String("name", "", "molecule name (default: the XYZ comment line)")
+	cart := fs.Bool("cartesian", false, "Cartesian d, f, … functions")
+	sph := fs.Bool("spherical", false, "spherical-harmonic d, f, … functions")
+	threads := fs.Int("threads", 0, "worker threads (0 = all cores); never changes a number")
+	eTol := fs.Float64("energy-tol", engine.DefaultSCF.EnergyTolHartree, "SCF: converged when |ΔE| < this (hartree) …")
+	dTol := fs.Float64("density-tol", engine.DefaultSCF.DensityTol, "SCF: … and RMS density change < this …")
+	gTol := fs.Float64("gradient-tol", engine.DefaultSCF.GradientTol, "SCF: … and max |FDS−SDF| < this")
+	maxIter := fs.Int("max-iter", engine.DefaultSCF.MaxIter, "SCF: iteration limit")
+	guess := fs.String("guess", engine.DefaultSCF.Guess, "SCF start: sad or core")
+	diis := fs.Int("diis", engine.DefaultSCF.DIISSize, "SCF: DIIS subspace size (0 = off)")
+	schwarz := fs.Float64("schwarz", engine.DefaultSCF.SchwarzThreshold, "skip ERI shell quartets with Schwarz bound below this")
+	shift := fs.Float64("level-shift", engine.DefaultSCF.LevelShiftHartree, "SCF: virtual-orbital level shift (hartree)")
+	grid := fs.String("grid", "", "DFT grid level (default: the engine's)")
+	origin := fs.String("origin", "centre-of-mass", "multipole origin: centre-of-mass, centre-of-charge or coordinate-origin")
+	pos, code, ok := parseFlags(fs, args)
+	if !ok {
+		return code
+	}
+	if len(pos) != 1 {
+		fmt.Fprintln(stderr, "moltrail run: give exactly one molecule file (XYZ)")
+		return exitUsage
+	}
+	if *cart && *sph {
+		fmt.Fprintln(stderr, "moltrail run: --cartesian and --spherical exclude each other")
+		return exitUsage
+	}
+	tagMap, err := parseTags(tags)
+	if err != nil {
+		return fail(stderr, exitUsage, "run", err)
+	}
+	m, err := molecule.ReadXYZFile(pos[0])
+	if err != nil {
+		return fail(stderr, exitUsage, "run", err)
+	}
+	if *name != "" {
+		m.Name = *name
+	}
+	m.Charge, m.Multiplicity = *charge, *mult
+	scf := engine.DefaultSCF
+	scf.EnergyTolHartree, scf.DensityTol, scf.GradientTol = *eTol, *dTol, *gTol
+	scf.MaxIter, scf.Guess, scf.DIISSize, scf.SchwarzThreshold, scf.LevelShiftHartree = *maxIter, *guess, *diis, *schwarz, *shift
+	req := engine.Request{Molecule: m, Method: *method, Basis: *basisName, Task: *task, FrozenCore: *frozen,
+		SCF: &scf, Grid: *grid, Origin: &engine.OriginSpec{Kind: *origin}}
+	if *cart {
+		req.Angular = basis.Cartesian
+	}
+	if *sph {
+		req.Angular = basis.Spherical
+	}
+	job, err := engine.NewJob(req)
+	if err != nil {
+		return fail(stderr, exitUsage, "run", fmt.Errorf("%s: %v", pos[0], err))
+	}
+	out, err := archive.RunAndStore(af.path(), archive.RunRequest{Job: job, Tags: tagMap, Force: *force,
+		Threads: *threads, Wait: af.waitOrNone(), Log: stderr}, engineCompute)
+	if err != nil {
+		return fail(stderr, exitFailed, "run", err)
+	}
+	rec := out.Record
+	switch {
+	case out.Cached:
+		fmt.Fprintf(stderr, "moltrail run: record %s (computed %s) already holds this input at this code version; nothing was computed (--force computes again)\n", rec.ID[:12], utc(rec.Run.StartUTC))
+		if len(tagMap) > 0 && !sameTags(tagMap, rec.Tags) {
+			fmt.Fprintln(stderr, "moltrail run: the stored record keeps its own tags; the --tag values given now were not applied (use --force, or `moltrail note`)")
+		}
+	case out.Recomputed != nil:
+		fmt.Fprintf(stderr, "moltrail run: stored record %s, a recomputation of %s\n", rec.ID[:12], out.Recomputed.ID[:12])
+	default:
+		fmt.Fprintf(stderr, "moltrail run: stored record %s in %s\n", rec.ID[:12], af.path())
+	}
+	if *asJSON {
+		b, err := rec.Encode()
+		if err != nil {
+			return fail(stderr, exitFailed, "run", err)
+		}
+		fmt.Fprintf(stdout, "%s\n", b)
+	} else {
+		writeRunSummary(stdout, rec)
+	}
+	if rec.Status != engine.StatusConverged {
+		msg := rec.Results.Error
+		if msg == "" {
+			msg = "the SCF did not reach its convergence criteria"
+		}
+		fmt.Fprintf(stderr, "moltrail run: %s (status %s)\n", msg, rec.Status)
+		return exitFailed
+	}
+	return exitOK
+}
+
+func sameTags(a, b map[string]string) bool {
+	if len(a) != len(b) {
+		return false
+	}
+	for k, v := range a {
+		if b[k] != v {
+			return false
+		}
+	}
+	return true
+}
+
+func joinNames(n []string) string {
+	s := ""
+	for i, x := range n {
+		if i > 0 {
+			s += ", "
+		}
+		s += x
+	}
+	return s
+}
+
+var _ = os.Stdout

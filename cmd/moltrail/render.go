@@ -1,0 +1,161 @@
+package main
+
+import (
+	"fmt"
+	"io"
+	"math"
+	"strings"
+
+	"moltrail/archive"
+	"moltrail/engine"
+)
+
+func level(r *archive.Record) string {
+	s := r.Input.Method
+	if r.Input.Reference != "" && r.Input.Reference != r.Input.Method {
+		s += "(" + r.Input.Reference + ")"
+	}
+	return s + " / " + r.Input.Basis.Name + " " + string(r.Input.Basis.Angular)
+}
+
+func energyCell(status string, e float64) string {
+	if status == engine.StatusFailed {
+		return "—"
+	}
+	return fmt.Sprintf("%.10f", e)
+}
+
+func vec(v *[3]float64, unit string) string {
+	if v == nil {
+		return "—"
+	}
+	n := math.Sqrt(v[0]*v[0] + v[1]*v[1] + v[2]*v[2])
+	return fmt.Sprintf("(%.6f, %.6f, %.6f) %s   |μ| %.6f %s", v[0], v[1], v[2], unit, n, unit)
+}
+
+// writeRunSummary is the short human report after a run.
+func writeRunSummary(w io.Writer, r *archive.Record) {
+	fmt.Fprintf(w, "record   %s   %s\n", r.ID, r.Status)
+	fmt.Fprintf(w, "molecule %s  %s  charge %d  multiplicity %d\n", r.Input.Molecule.Name, r.Formula(), r.Input.Molecule.Charge, r.Input.Molecule.Multiplicity)
+	fmt.Fprintf(w, "level    %s  task %s\n", level(r), r.Input.Task)
+	if r.Status != engine.StatusFailed {
+		fmt.Fprintf(w, "energy   %.10f hartree\n", r.Results.EnergyHartree)
+		if r.Results.DipoleDebye != nil {
+			fmt.Fprintf(w, "dipole   %s\n", vec(r.Results.DipoleDebye, "D"))
+		}
+	} else {
+		fmt.Fprintf(w, "error    %s\n", r.Results.Error)
+	}
+	fmt.Fprintf(w, "run      %s  %.3f s  %d threads\n", utc(r.Run.StartUTC), r.Run.WallSeconds, r.Run.Threads)
+}
+
+// writeRecord is the whole record, human readable.
+func writeRecord(w io.Writer, r *archive.Record, notes []archive.Note) {
+	sec := func(title string) { fmt.Fprintf(w, "\n» %s\n", title) }
+	kv := func(k, format string, a ...any) { fmt.Fprintf(w, "  %-22s %s\n", k, fmt.Sprintf(format, a...)) }
+	fmt.Fprintf(w, "record %s\n", r.ID)
+	kv("status", "%s", r.Status)
+	kv("input key", "%s", r.InputKey)
+	kv("record format", "%s", r.Format)
+
+	in := r.Input
+	sec("input")
+	kv("molecule", "%s  (%s, charge %+d, multiplicity %d, %d atoms)", in.Molecule.Name, r.Formula(), in.Molecule.Charge, in.Molecule.Multiplicity, len(in.Molecule.Atoms))
+	kv("method", "%s  reference %s", in.Method, in.Reference)
+	if in.Functional != "" {
+		kv("functional", "%s", in.Functional)
+	}
+	kv("basis", "%s  %s  %s", in.Basis.Name, in.Basis.Angular, in.Basis.File)
+	kv("basis sha256", "%s", in.Basis.SHA256)
+	kv("task", "%s", in.Task)
+	s := in.SCF
+	kv("scf convergence", "|ΔE| < %g hartree, rms ΔD < %g, max |FDS−SDF| < %g", s.EnergyTolHartree, s.DensityTol, s.GradientTol)
+	kv("scf controls", "≤ %d iterations, guess %s, DIIS %d, Schwarz %g, level shift %g hartree", s.MaxIter, s.Guess, s.DIISSize, s.SchwarzThreshold, s.LevelShiftHartree)
+	if g := in.Grid; g != nil {
+		kv("grid", "%s: %s %d radial × order %d angular, %s partition, pruning %s", g.Level, g.RadialScheme, g.RadialPoints, g.AngularOrder, g.Partition, g.Pruning)
+	}
+	if c := in.Correlation; c != nil {
+		kv("correlation", "frozen core %v, relaxed properties %s (field step %g au)", c.FrozenCore, c.RelaxedProperties, c.FieldStepAU)
+	}
+	kv("multipole origin", "%s", in.Origin.Kind)
+	if o := in.Opt; o != nil {
+		kv("optimisation", "max force %g, rms force %g hartree/bohr, ≤ %d steps, %s coordinates, %s gradient", o.MaxForce, o.RMSForce, o.MaxSteps, o.Coordinates, o.GradientMethod)
+	}
+	fmt.Fprintln(w, "  atoms (bohr)")
+	for _, a := range in.Molecule.Atoms {
+		fmt.Fprintf(w, "    %-2s %15.10f %15.10f %15.10f\n", a.Symbol, a.Bohr[0], a.Bohr[1], a.Bohr[2])
+	}
+
+	res := r.Results
+	sec("results")
+	if res.Error != "" {
+		kv("error", "%s", res.Error)
+	}
+	if r.Status != engine.StatusFailed {
+		kv("energy", "%.10f hartree", res.EnergyHartree)
+		kv("scf energy", "%.10f hartree", res.SCFEnergyHartree)
+		if res.CorrelationEnergyHartree != nil {
+			kv("correlation energy", "%.10f hartree", *res.CorrelationEnergyHartree)
+		}
+		kv("nuclear repulsion", "%.10f hartree", res.NuclearRepulsionHartree)
+		kv("dipole", "%s", vec(res.DipoleDebye, "D"))
+		if res.SCFDipoleDebye != nil && res.DipoleDebye != nil && *res.SCFDipoleDebye != *res.DipoleDebye {
+			kv("scf dipole", "%s", vec(res.SCFDipoleDebye, "D"))
+		}
+		if q := res.QuadrupoleBuckingham; q != nil {
+			kv("quadrupole (traceless)", "xx %.6f yy %.6f zz %.6f xy %.6f xz %.6f yz %.6f D·Å", q.XX, q.YY, q.ZZ, q.XY, q.XZ, q.YZ)
+		}
+		o := res.MultipoleOriginBohr
+		kv("multipole origin", "(%.6f, %.6f, %.6f) bohr — dipoles of charged molecules and quadrupoles depend on it", o[0], o[1], o[2])
+		if res.S2 != nil {
+			kv("<S²>", "%.6f", *res.S2)
+		}
+		kv("basis functions", "%d   electrons α %d β %d", res.NBasis, res.Electrons[0], res.Electrons[1])
+		if n := len(res.SCFIterations); n > 0 {
+			last := res.SCFIterations[n-1]
+			kv("scf iterations", "%d (last ΔE %.2e hartree, rms ΔD %.2e, gradient %.2e)", n, last.DeltaEHartree, last.DensityRMS, last.OrbitalGradient)
+		}
+	}
+	fmt.Fprintln(w, "  geometry (Å)")
+	for _, a := range res.GeometryAngstrom {
+		fmt.Fprintf(w, "    %-2s %15.10f %15.10f %15.10f\n", a.Symbol, a.XYZ[0], a.XYZ[1], a.XYZ[2])
+	}
+	for _, n := range res.Notes {
+		fmt.Fprintf(w, "  note: %s\n", n)
+	}
+
+	c := r.Code
+	sec("code")
+	rev := c.Revision
+	if rev == "" {
+		rev = "(no VCS information)"
+	}
+	if c.Modified {
+		rev += "  modified tree"
+	}
+	kv("program", "%s %s", c.Program, c.Version)
+	kv("revision", "%s", rev)
+	kv("build", "%s %s/%s", c.GoVersion, c.OS, c.Arch)
+	kv("executable sha256", "%s", c.ExecutableSHA256)
+	kv("job encoding", "%s", c.CanonicalVersion)
+
+	sec("run")
+	kv("started", "%s UTC", utc(r.Run.StartUTC))
+	kv("ended", "%s UTC", utc(r.Run.EndUTC))
+	kv("wall time", "%.3f s on %s, %d threads, peak memory %.1f MiB", r.Run.WallSeconds, r.Run.Host, r.Run.Threads, r.Run.PeakMemoryMB)
+	if len(r.Lineage) > 0 || len(r.Tags) > 0 {
+		sec("lineage and tags")
+		for _, l := range r.Lineage {
+			kv(l.Relation, "%s", l.ID)
+		}
+		if len(r.Tags) > 0 {
+			kv("tags", "%s", strings.Join(r.TagList(), "  "))
+		}
+	}
+	if len(notes) > 0 {
+		sec("notes")
+		for _, n := range notes {
+			fmt.Fprintf(w, "  %s  %s\n", utc(n.TimeUTC), n.Text)
+		}
+	}
+}
