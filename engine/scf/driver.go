@@ -213,6 +213,7 @@ func solve(sys *system, opt Options, guess [2]*mat.SymDense) (*Result, error) {
 		var fs []*mat.SymDense
 		var es []*mat.Dense
 		var grad float64
+		skipDIIS := false
 		switch kind {
 		case restricted:
 			ea := commutatorError(orth, fa, da, sys.s)
@@ -225,6 +226,7 @@ func solve(sys *system, opt Options, guess [2]*mat.SymDense) (*Result, error) {
 			grad = math.Max(maxAbs(ea), maxAbs(eb))
 		case openShell:
 			foa, fob := orth.toOrth(fa), orth.toOrth(fb)
+			skipDIIS = orbA == nil
 			if orbA == nil {
 				// A guess density without orbitals: start from the
 				// eigenvectors of the spin-averaged operator.
@@ -249,7 +251,13 @@ func solve(sys *system, opt Options, guess [2]*mat.SymDense) (*Result, error) {
 		done := it > 1 && math.Abs(dE) < opt.EnergyTolHartree && rms < opt.DensityTol && grad < opt.GradientTol
 		var fx []*mat.SymDense
 		nd := 0
-		if !done && it < opt.MaxIter {
+		switch {
+		case done || it == opt.MaxIter:
+		case skipDIIS:
+			// The gradient of a density without its own orbitals says
+			// little; keep it out of the subspace.
+			fx = fs
+		default:
 			dd.push(fs, es)
 			fx = dd.extrapolate()
 			nd = dd.len()

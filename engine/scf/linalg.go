@@ -38,17 +38,16 @@ func newOrthogonaliser(s *mat.SymDense, tol float64) (*orthogonaliser, error) {
 	o := &orthogonaliser{dropped: n - keep}
 	if keep == n {
 		// X = U s^{-1/2} U†
-		x := mat.NewDense(n, n, nil)
-		for i := 0; i < n; i++ {
-			for j := 0; j < n; j++ {
-				sum := 0.0
-				for k := 0; k < n; k++ {
-					sum += u.At(i, k) * u.At(j, k) / math.Sqrt(vals[k])
-				}
-				x.Set(i, j, sum)
+		us := mat.DenseCopyOf(&u)
+		for k := 0; k < n; k++ {
+			f := 1 / math.Sqrt(vals[k])
+			for i := 0; i < n; i++ {
+				us.Set(i, k, us.At(i, k)*f)
 			}
 		}
-		o.x = x
+		var x mat.Dense
+		x.Mul(us, u.T())
+		o.x = mat.DenseCopyOf(symmetrise(&x))
 		return o, nil
 	}
 	x := mat.NewDense(n, keep, nil)
@@ -126,19 +125,26 @@ func diagonalise(a *mat.SymDense) ([]float64, *mat.Dense, error) {
 // densityFrom returns Σ_i occ_i c_i c_iᵀ over the columns of c.
 func densityFrom(c *mat.Dense, occ []float64) *mat.SymDense {
 	n, _ := c.Dims()
-	d := mat.NewSymDense(n, nil)
-	for i := 0; i < n; i++ {
-		for j := i; j < n; j++ {
-			sum := 0.0
-			for k, w := range occ {
-				if w != 0 {
-					sum += w * c.At(i, k) * c.At(j, k)
-				}
-			}
-			d.SetSym(i, j, sum)
+	var cols []int
+	for k, w := range occ {
+		if w != 0 {
+			cols = append(cols, k)
 		}
 	}
-	return d
+	if len(cols) == 0 {
+		return mat.NewSymDense(n, nil)
+	}
+	a := mat.NewDense(n, len(cols), nil)
+	b := mat.NewDense(n, len(cols), nil)
+	for j, k := range cols {
+		for i := 0; i < n; i++ {
+			a.Set(i, j, c.At(i, k))
+			b.Set(i, j, occ[k]*c.At(i, k))
+		}
+	}
+	var d mat.Dense
+	d.Mul(a, b.T())
+	return symmetrise(&d)
 }
 
 // dotSym is Σ_ij A_ij B_ij = tr(A B) for symmetric A, B.
