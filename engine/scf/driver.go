@@ -241,11 +241,18 @@ func solve(sys *system, opt Options, guess [2]*mat.SymDense) (*Result, error) {
 			fs, es, grad = []*mat.SymDense{feff}, []*mat.Dense{g}, maxAbs(g)
 		}
 
+		// The density change is measured in the orthonormal basis, where it
+		// stays well conditioned when the AO basis is nearly dependent.
 		var rms float64
+		var nextA, nextB *mat.SymDense
 		if kind == restricted {
-			rms = rmsDiff([]*mat.SymDense{da}, []*mat.SymDense{prevA})
+			oa := orth.density(sys.s, da)
+			rms = rmsDiff([]*mat.SymDense{oa}, []*mat.SymDense{prevA})
+			nextA, nextB = oa, oa
 		} else {
-			rms = rmsDiff([]*mat.SymDense{da, db}, []*mat.SymDense{prevA, prevB})
+			oa, ob := orth.density(sys.s, da), orth.density(sys.s, db)
+			rms = rmsDiff([]*mat.SymDense{oa, ob}, []*mat.SymDense{prevA, prevB})
+			nextA, nextB = oa, ob
 		}
 		dE := e - prevE
 		done := it > 1 && math.Abs(dE) < opt.EnergyTolHartree && rms < opt.DensityTol && grad < opt.GradientTol
@@ -275,7 +282,7 @@ func solve(sys *system, opt Options, guess [2]*mat.SymDense) (*Result, error) {
 		if opt.LevelShiftHartree > 0 {
 			fx = levelShift(fx, orth, sys.s, da, db, kind, opt.LevelShiftHartree)
 		}
-		prevE, prevA, prevB = e, da, db
+		prevE, prevA, prevB = e, nextA, nextB
 		switch kind {
 		case restricted:
 			if orbA, err = newOrbitals(orth, fx[0], na); err != nil {

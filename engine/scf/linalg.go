@@ -77,6 +77,15 @@ func (o *orthogonaliser) toOrth(a *mat.SymDense) *mat.SymDense {
 	return symmetrise(&r)
 }
 
+// density returns the orthonormal-basis density X†S D S X of an AO density.
+func (o *orthogonaliser) density(s, d *mat.SymDense) *mat.SymDense {
+	var sx, t, r mat.Dense
+	sx.Mul(s, o.x)
+	t.Mul(d, &sx)
+	r.Mul(sx.T(), &t)
+	return symmetrise(&r)
+}
+
 // symmetrise returns (A + A†)/2 as a SymDense.
 func symmetrise(a mat.Matrix) *mat.SymDense {
 	n, _ := a.Dims()

@@ -50,7 +50,9 @@
 // vectors are dropped while the DIIS equations are ill-conditioned),
 // applies an optional level shift to the virtual (and half of it to the
 // open-shell) orbitals and diagonalises to get Dk+1. The run has converged
-// when |Ek − Ek−1|, the RMS change Dk − Dk−1 (over both spin densities) and
+// when |Ek − Ek−1|, the RMS change Dk − Dk−1 (over both spin densities, in
+// the orthonormal basis: X†S D S X, which stays well conditioned when the
+// AO basis is nearly dependent) and
 // the orbital gradient are all below their thresholds; for the first
 // iteration ΔE and the density change are measured from zero. The final
 // orbitals are eigenvectors of the last (unextrapolated, unshifted) Fock

@@ -202,3 +202,20 @@ func TestLevelShiftSameSolution(t *testing.T) {
 		t.Logf("%s: %.10f (%d iterations), shifted %d iterations, <S²> %.6f", ref, a.Energy, len(a.Iterations), len(b.Iterations), a.S2)
 	}
 }
+
+// TestLinearDependence: two helium atoms 1e-4 a0 apart in 6-31G make the
+// overlap nearly singular; the near-dependent combinations are removed and
+// the run still converges (common practice, no source).
+func TestLinearDependence(t *testing.T) {
+	m, mb := build(t, "6-31g", "", 0, 1, molecule.MustAtom("He", 0, 0, 0), molecule.MustAtom("He", 0, 0, 1e-4))
+	for _, guess := range []string{"sad", "core"} {
+		r := mustRun(t, m, mb, Options{Reference: "rhf", Guess: guess})
+		if r.DroppedFunctions == 0 || r.NMO != mb.NBasis-r.DroppedFunctions {
+			t.Errorf("%s: dropped %d, NMO %d of %d functions", guess, r.DroppedFunctions, r.NMO, mb.NBasis)
+		}
+		if _, c := r.Ca.Dims(); c != r.NMO || len(r.Ea) != r.NMO {
+			t.Errorf("%s: %d orbital columns, %d energies, NMO %d", guess, c, len(r.Ea), r.NMO)
+		}
+		t.Logf("%s: E = %.8f, dropped %d, %d iterations", guess, r.Energy, r.DroppedFunctions, len(r.Iterations))
+	}
+}
