@@ -14,10 +14,15 @@ import (
 
 // relaxedDipole is the total dipole (e·a0) about origin of the relaxed density.
 func relaxedDipole(mol *molecule.Molecule, mb *basis.Molecular, r *Result, origin [3]float64) [3]float64 {
+	return dipoleOf(mol, mb, r.RelaxedDa, r.RelaxedDb, origin)
+}
+
+// dipoleOf is the total dipole (e·a0) about origin of the density Da + Db.
+func dipoleOf(mol *molecule.Molecule, mb *basis.Molecular, Da, Db *mat.SymDense, origin [3]float64) [3]float64 {
 	dip, _ := integral.Multipole(mb, origin)
 	var d [3]float64
 	D := mat.NewSymDense(mb.NBasis, nil)
-	D.AddSym(r.RelaxedDa, r.RelaxedDb)
+	D.AddSym(Da, Db)
 	for k := 0; k < 3; k++ {
 		for _, a := range mol.Atoms {
 			d[k] += float64(a.Z) * (a.PosBohr[k] - origin[k])
