@@ -195,11 +195,13 @@ type Unmatched struct {
 
 // Settings records the thresholds and bootstrap parameters used.
 type Settings struct {
-	BootstrapSamples  int     `json:"bootstrap_samples"`
-	BootstrapSeed     uint64  `json:"bootstrap_seed"`
-	Confidence        float64 `json:"ci_confidence"`
-	DipoleFloorDebye  float64 `json:"dipole_floor_debye"`
-	QuadFloorDA       float64 `json:"quadrupole_floor_debye_angstrom"`
-	CancelRatio       float64 `json:"cancellation_ratio_threshold"`
-	RelativeFloorSpan float64 `json:"relative_floor_uncertainties"`
+	BootstrapSamples int     `json:"bootstrap_samples"`
+	BootstrapSeed    uint64  `json:"bootstrap_seed"`
+	Confidence       float64 `json:"ci_confidence"`
+	DipoleFloorDebye float64 `json:"dipole_floor_debye"`
+	QuadFloorDA      float64 `json:"quadrupole_floor_debye_angstrom"`
+	EnergyFloorKJ    float64 `json:"energy_difference_floor_kj_per_mol"`
+	// CancelDipole and CancelQuad are the cancellation ratios above which a moment is flagged.
+	CancelDipole float64 `json:"cancellation_ratio_dipole"`
+	CancelQuad   float64 `json:"cancellation_ratio_quadrupole"`
 }
