@@ -26,9 +26,10 @@
 // spin average Fc = (Fα + Fβ)/2, whose c–o block is Fβ, o–v block Fα and
 // c–v block Fc. Its off-diagonal blocks vanish exactly at the ROHF
 // stationary point, so they are the orbital gradient; its eigenvalues are
-// the ROHF orbital energies reported (one choice among the possible
-// canonicalisations: with this one the closed, open and virtual orbitals
-// are all canonical for the spin-averaged operator Fc).
+// the ROHF orbital energies reported. The choice of diagonal blocks is a
+// canonicalisation (it fixes the orbitals within each space, not the
+// energy); all three equal to Fc is the one usually attributed to Guest and
+// Saunders, Mol. Phys. 28, 819 (1974) (from memory).
 //
 // Guesses. "core" diagonalises H. "sad" (the default) superposes atomic
 // densities: for each distinct element of the molecule a spherically
@@ -181,6 +182,11 @@ func Run(mol *molecule.Molecule, mb *basis.Molecular, opt Options) (*Result, err
 	}
 	if len(mb.FuncAtom) != mb.NBasis {
 		return nil, fmt.Errorf("scf: basis function count %d does not match its atom map (%d)", mb.NBasis, len(mb.FuncAtom))
+	}
+	for _, a := range mb.FuncAtom {
+		if a < 0 || a >= len(m.Atoms) {
+			return nil, fmt.Errorf("scf: the basis was placed on a molecule with more atoms (function on atom %d, the molecule has %d)", a+1, len(m.Atoms))
+		}
 	}
 	opt, err := normalise(opt, m)
 	if err != nil {
