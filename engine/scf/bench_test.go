@@ -2,6 +2,7 @@ package scf
 
 import (
 	"math"
+	"syscall"
 	"testing"
 
 	"moltrail/engine/basis"
@@ -27,12 +28,23 @@ func benzene(tb testing.TB) (*molecule.Molecule, *basis.Molecular) {
 func benchRHF(b *testing.B, m *molecule.Molecule, mb *basis.Molecular, threads int) {
 	b.Helper()
 	var e float64
+	cpu0 := cpuSeconds()
 	for i := 0; i < b.N; i++ {
 		r := mustRun(b, m, mb, Options{Reference: "rhf", Threads: threads})
 		e = r.Energy
 		b.ReportMetric(float64(len(r.Iterations)), "iterations")
 	}
 	b.ReportMetric(e, "hartree")
+	// Process CPU time per run: on a shared machine a steadier figure than wall time.
+	b.ReportMetric((cpuSeconds()-cpu0)/float64(b.N), "cpu-s/op")
+}
+
+func cpuSeconds() float64 {
+	var ru syscall.Rusage
+	if err := syscall.Getrusage(syscall.RUSAGE_SELF, &ru); err != nil {
+		return 0
+	}
+	return float64(ru.Utime.Sec+ru.Stime.Sec) + 1e-6*float64(ru.Utime.Usec+ru.Stime.Usec)
 }
 
 // BenchmarkBenzeneRHFccpVDZ: guess to converged, 114 functions.
