@@ -151,11 +151,24 @@ func NewJob(r Request) (*Job, error) {
 		}
 		rp := r.RelaxedProps
 		if rp == "" {
-			rp = "finite-field"
+			// The analytic relaxed density is that of unscaled MP2; spin-scaled
+			// variants differentiate their own energy in finite fields.
+			rp = "z-vector"
+			if info.SameSpin != 1 || info.OppositeSpin != 1 {
+				rp = "finite-field"
+			}
+		}
+		switch rp {
+		case "z-vector", "finite-field", "none":
+		default:
+			return nil, fmt.Errorf("relaxed-properties route %q is not known (z-vector, finite-field, none)", rp)
+		}
+		if rp == "z-vector" && (info.SameSpin != 1 || info.OppositeSpin != 1) {
+			return nil, fmt.Errorf("the analytic relaxed density is available for unscaled MP2 only; use finite-field for %s", method)
 		}
 		j.Correlation = &CorrelationSettings{FrozenCore: r.FrozenCore, RelaxedProperties: rp}
 		if rp == "finite-field" {
-			j.Correlation.FieldStepAU = 1e-3
+			j.Correlation.FieldStepAU = 2e-3
 		}
 	case "dft":
 		j.Reference = "rks"
@@ -191,14 +204,15 @@ func NewJob(r Request) (*Job, error) {
 
 // DefaultOpt gives bond lengths converged to about 1e-4 Å.
 var DefaultOpt = OptSettings{
-	MaxForce:        3e-5,
-	RMSForce:        2e-5,
-	MaxStep:         1e-4,
-	EnergyChange:    1e-8,
-	MaxSteps:        100,
-	TrustRadiusBohr: 0.3,
-	Coordinates:     "cartesian",
-	GradientMethod:  "analytic",
+	MaxForce:         3e-5,
+	RMSForce:         2e-5,
+	MaxStep:          1e-4,
+	EnergyChange:     1e-8,
+	MaxSteps:         100,
+	TrustRadiusBohr:  0.3,
+	Coordinates:      "cartesian",
+	GradientMethod:   "finite-difference",
+	FiniteDiffStepAU: 1e-3,
 }
 
 // Validate checks a normalised job for settings that cannot work.

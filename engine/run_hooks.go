@@ -1,0 +1,94 @@
+package engine
+
+import (
+	"fmt"
+	"math"
+
+	"gonum.org/v1/gonum/mat"
+
+	"moltrail/engine/basis"
+	"moltrail/engine/molecule"
+	"moltrail/engine/mp2"
+	"moltrail/engine/scf"
+)
+
+// newXC builds the exchange–correlation object of a DFT job.
+func newXC(job *Job, mol *molecule.Molecule, mb *basis.Molecular, o RunOptions) (scf.XC, error) {
+	return nil, fmt.Errorf("method %s: Kohn–Sham DFT is not available in this build yet", job.Method)
+}
+
+// correlate adds the MP2-family energy (and, with withProps, the relaxed
+// dipole and quadrupole) to res.
+func correlate(job *Job, mol *molecule.Molecule, mb *basis.Molecular, sr *scf.Result, res *Result, o RunOptions, withProps bool) error {
+	info := Methods[job.Method]
+	cs := job.Correlation
+	relaxed := withProps && cs.RelaxedProperties == "z-vector"
+	o.logf("  %s: transforming integrals (%d basis functions)\n", job.Method, mb.NBasis)
+	r, err := mp2.Run(mol, mb, sr, mp2.Options{FrozenCore: cs.FrozenCore, Relaxed: relaxed, Threads: o.threads()})
+	if err != nil {
+		return err
+	}
+	ec := r.ScaledCorrelationHartree(info.SameSpin, info.OppositeSpin)
+	res.CorrelationEnergyHartree = &ec
+	res.EnergyHartree = sr.Energy + ec
+	res.Correlation = &Correlation{
+		Method: job.Method, SameSpinHartree: r.SameSpinHartree, OppositeSpinHartree: r.OppositeSpinHartree,
+		SameSpinScale: info.SameSpin, OppositeSpinScale: info.OppositeSpin, FrozenOrbitals: r.FrozenOrbitals,
+		MP2TotalHartree: sr.Energy + r.CorrelationHartree,
+	}
+	if !withProps {
+		return nil
+	}
+	origin := job.OriginBohr(mol)
+	switch cs.RelaxedProperties {
+	case "z-vector":
+		dt := mat.NewSymDense(mb.NBasis, nil)
+		dt.AddSym(r.RelaxedDa, r.RelaxedDb)
+		pr, err := oneElectronProperties(mol, mb, sr, dt, origin, job.Origin.Kind)
+		if err != nil {
+			return err
+		}
+		pr.Density = "mp2-relaxed"
+		pr.Method = fmt.Sprintf("analytic relaxed density (Z-vector, %d iterations, residual %.1e)", r.ZVectorIterations, r.ZVectorResidual)
+		res.LevelProperties = pr
+		d, q := pr.DipoleDebye, pr.QuadrupoleBuckingham
+		res.DipoleDebye, res.QuadrupoleBuckingham = &d, &q
+	case "finite-field":
+		so := scfOptions(job, o)
+		so.ERI = sr.ERI
+		fd, err := mp2.FiniteFieldDipole(mol, mb, so, mp2.Options{FrozenCore: cs.FrozenCore, Threads: o.threads()}, info.SameSpin, info.OppositeSpin, cs.FieldStepAU, origin)
+		if err != nil {
+			return err
+		}
+		var nuc [3]float64
+		for _, a := range mol.Atoms {
+			for k := 0; k < 3; k++ {
+				nuc[k] += float64(a.Z) * (a.PosBohr[k] - origin[k])
+			}
+		}
+		pr := &Properties{Density: "mp2-finite-field", OriginBohr: origin, OriginKind: job.Origin.Kind,
+			Method:            "finite electric fields: central differences with steps h and 2h, Richardson extrapolation",
+			FiniteFieldStepAU: cs.FieldStepAU, DipoleOriginDependent: mol.Charge != 0}
+		var errD float64
+		for k := 0; k < 3; k++ {
+			pr.DipoleDebye[k] = fd.DipoleAU[k] * molecule.DebyePerAU
+			errD = math.Max(errD, fd.ErrorEstimateAU[k]*molecule.DebyePerAU)
+		}
+		pr.Dipole = MultipoleParts{TotalAU: fd.DipoleAU[:], NuclearAU: nuc[:], ElectronicAU: []float64{fd.DipoleAU[0] - nuc[0], fd.DipoleAU[1] - nuc[1], fd.DipoleAU[2] - nuc[2]}}
+		pr.DipoleNormD = math.Sqrt(pr.DipoleDebye[0]*pr.DipoleDebye[0] + pr.DipoleDebye[1]*pr.DipoleDebye[1] + pr.DipoleDebye[2]*pr.DipoleDebye[2])
+		pr.FiniteFieldErrorDebye = errD
+		res.LevelProperties = pr
+		d := pr.DipoleDebye
+		res.DipoleDebye = &d
+		res.QuadrupoleBuckingham = nil
+		res.Notes = append(res.Notes, "the finite-field route gives the relaxed dipole only; no quadrupole is reported at this level")
+	default:
+		res.Notes = append(res.Notes, "relaxed properties were not requested: dipole_debye is the reference (SCF) dipole")
+	}
+	return nil
+}
+
+// gradient returns the energy and analytic nuclear gradient at mol.
+func gradient(job *Job, mol *molecule.Molecule, set *basis.Set, o RunOptions) (float64, []float64, error) {
+	return 0, nil, fmt.Errorf("analytic gradients are not available in this build yet; use the finite-difference gradient method")
+}
