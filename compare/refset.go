@@ -534,3 +534,24 @@ func (m *RefMolecule) names() []string {
 	}
 	return out
 }
+
+// Names reports whether a molecule name (as a record carries it) names a
+// molecule of the set, so callers can skip loading records that cannot match.
+func (s *RefSet) Names(name string) bool {
+	n := normName(name)
+	for i := range s.Entries {
+		e := &s.Entries[i]
+		mols := []*RefMolecule{&e.Molecule}
+		for j := range e.Quantity.Terms {
+			mols = append(mols, &e.Quantity.Terms[j].Molecule)
+		}
+		for _, m := range mols {
+			for _, k := range m.names() {
+				if k == n {
+					return true
+				}
+			}
+		}
+	}
+	return false
+}

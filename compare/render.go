@@ -100,7 +100,7 @@ func WriteText(w io.Writer, t *Table) error {
 				where += " · record " + shortID(c.RecordID)
 			}
 			p.line(" ‼ %-11s %s", c.Code, where)
-			p.line("   %s", c.Detail)
+			p.wrapped("   ", "   ", c.Detail)
 		}
 	}
 
@@ -124,11 +124,11 @@ func WriteText(w io.Writer, t *Table) error {
 
 	p.rule("what the caution codes mean")
 	for _, c := range t.Legend {
-		p.line(" %-11s %s. %s", c.Code, c.Title, c.Explain)
+		p.wrapped(fmt.Sprintf(" %-11s ", c.Code), strings.Repeat(" ", 13), c.Title+". "+c.Explain)
 	}
 	p.rule("read before use")
 	for _, n := range t.Notes {
-		p.line(" · %s", n)
+		p.wrapped(" · ", "   ", n)
 	}
 	p.line(" ᵐ marks a reference value recalled from its source, not transcribed.")
 	return p.err
@@ -177,6 +177,30 @@ func (p *printer) line(f string, a ...any) {
 		return
 	}
 	_, p.err = fmt.Fprintf(p.w, f+"\n", a...)
+}
+
+// wrapped prints text word-wrapped to 78 columns: the first line after
+// first, the following lines after indent.
+func (p *printer) wrapped(first, indent, text string) {
+	const width = 78
+	line := first
+	n := utf8.RuneCountInString(line)
+	empty := true
+	for _, w := range strings.Fields(text) {
+		wl := utf8.RuneCountInString(w)
+		if !empty && n+1+wl > width {
+			p.line("%s", line)
+			line, n, empty = indent, utf8.RuneCountInString(indent), true
+		}
+		if !empty {
+			line += " "
+			n++
+		}
+		line += w
+		n += wl
+		empty = false
+	}
+	p.line("%s", line)
 }
 
 // rule prints a block title: a blank line, then "━━ title ━━━…" to 78 columns.
