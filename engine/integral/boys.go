@@ -33,6 +33,7 @@ const (
 var (
 	boysOnce  sync.Once
 	boysTable []float64 // [point][m], m = 0..boysRows-1
+	boysExp   []float64 // exp(−T_i)
 )
 
 var invFact = func() [boysTaylor]float64 {
@@ -47,6 +48,7 @@ var invFact = func() [boysTaylor]float64 {
 func initBoys() {
 	np := int(boysTMax/boysStep) + 2
 	boysTable = make([]float64, np*boysRows)
+	boysExp = make([]float64, np)
 	mtop := boysRows - 1
 	const prec = 128
 	for i := 0; i < np; i++ {
@@ -67,6 +69,7 @@ func initBoys() {
 		}
 		s, _ := sum.Float64()
 		ex := math.Exp(-T)
+		boysExp[i] = ex
 		row := boysTable[i*boysRows : (i+1)*boysRows]
 		row[mtop] = ex * s
 		for m := mtop - 1; m >= 0; m-- {
@@ -94,7 +97,9 @@ func boys(mmax int, T float64, f []float64) {
 		}
 		f[mmax] = v
 		if mmax > 0 {
-			ex := math.Exp(-T)
+			// e^{−T} = e^{−T_i} e^{d}, e^{d} by its Taylor series (|d| ≤ 0.025).
+			ed := 1 + d*(1+d*(0.5+d*(1.0/6+d*(1.0/24+d*(1.0/120+d*(1.0/720+d*(1.0/5040)))))))
+			ex := boysExp[i] * ed
 			t2 := 2 * T
 			for m := mmax - 1; m >= 0; m-- {
 				f[m] = (t2*f[m+1] + ex) / float64(2*m+1)

@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 	"runtime"
+	"sort"
 	"sync"
 	"sync/atomic"
 
@@ -18,6 +19,11 @@ const DefaultSchwarzThreshold = 1e-12
 // PrimitiveThreshold drops a primitive pair from a shell pair when
 // |c_a c_b| exp(−μ R_AB²) (π/p)^{3/2} is below it.
 const PrimitiveThreshold = 1e-20
+
+// PrimitiveQuartetThreshold drops a primitive quartet when the product of
+// the two primitive pairs' Schwarz-type estimates
+// |K_ab|/p · sqrt(2π^{5/2}/sqrt(2p)) · max|E^{ab}| is below it.
+const PrimitiveQuartetThreshold = 1e-15
 
 // DefaultMemoryBudgetBytes is the in-core budget used when
 // Options.MemoryBudgetBytes is zero (1 GiB).
@@ -51,6 +57,15 @@ type pairData struct {
 	p        []float64
 	px       []float64 // P, 3 per primitive pair
 	kp       []float64 // c_a c_b exp(−μ R_AB²)/p
+	bound    []float64 // primitive Schwarz-type estimate, descending
+	// Sparse form of e: for function pair f the Hermite indices
+	// nzH[nzStart[f]:nzStart[f+1]] where some primitive has E ≠ 0;
+	// es[k*nnz+j] the values, esK the same times (−1)^{t+u+v} (ket use).
+	nzStart []int32
+	nzH     []int32
+	nnz     int
+	es, esK []float64
+	usedH   []int32 // Hermite indices used by any function pair
 	// e[k*nf*nh + f*nh + h]: Hermite coefficients E^{ab}_{tuv} of the
 	// final function pair f = fa*nfb+fb (normalisation and spherical
 	// transformation included) for primitive pair k.
@@ -251,13 +266,82 @@ func makePair(mb *basis.Molecular, i, j int, trans [][]float64) pairData {
 					}
 				}
 			}
+			emax := 0.0
+			for _, v := range fin[:pd.nf*pd.nh] {
+				emax = math.Max(emax, math.Abs(v))
+			}
 			pd.p = append(pd.p, p)
 			pd.px = append(pd.px, P[0], P[1], P[2])
 			pd.kp = append(pd.kp, K/p)
+			pd.bound = append(pd.bound, math.Abs(K/p)*math.Sqrt(twoPi52/math.Sqrt(2*p))*emax)
 			pd.np++
 		}
 	}
+	sortPrims(&pd)
+	makeSparse(&pd)
 	return pd
+}
+
+func makeSparse(pd *pairData) {
+	used := make([]bool, pd.nh)
+	pd.nzStart = make([]int32, pd.nf+1)
+	for f := 0; f < pd.nf; f++ {
+		for h := 0; h < pd.nh; h++ {
+			nz := false
+			for k := 0; k < pd.np; k++ {
+				if pd.e[(k*pd.nf+f)*pd.nh+h] != 0 {
+					nz = true
+					break
+				}
+			}
+			if nz {
+				pd.nzH = append(pd.nzH, int32(h))
+				used[h] = true
+			}
+		}
+		pd.nzStart[f+1] = int32(len(pd.nzH))
+	}
+	pd.nnz = len(pd.nzH)
+	pd.es = make([]float64, pd.np*pd.nnz)
+	pd.esK = make([]float64, pd.np*pd.nnz)
+	for k := 0; k < pd.np; k++ {
+		for f := 0; f < pd.nf; f++ {
+			for j := pd.nzStart[f]; j < pd.nzStart[f+1]; j++ {
+				h := pd.nzH[j]
+				v := pd.e[(k*pd.nf+f)*pd.nh+int(h)]
+				pd.es[k*pd.nnz+int(j)] = v
+				pd.esK[k*pd.nnz+int(j)] = v * herm.sign[h]
+			}
+		}
+	}
+	for h, u := range used {
+		if u {
+			pd.usedH = append(pd.usedH, int32(h))
+		}
+	}
+}
+
+// mdCost estimates the work of quartet() with A as bra and B as ket.
+func mdCost(A, B *pairData) int {
+	return A.np*B.np*(len(A.usedH)*B.nnz+24) + A.np*A.nnz*B.nf
+}
+
+// sortPrims orders the primitive pairs by decreasing bound so that the
+// quartet loops can stop early.
+func sortPrims(pd *pairData) {
+	ord := make([]int, pd.np)
+	for k := range ord {
+		ord[k] = k
+	}
+	sort.SliceStable(ord, func(a, b int) bool { return pd.bound[ord[a]] > pd.bound[ord[b]] })
+	n := pd.nf * pd.nh
+	p, px, kp, bd, e := make([]float64, pd.np), make([]float64, 3*pd.np), make([]float64, pd.np), make([]float64, pd.np), make([]float64, len(pd.e))
+	for k, o := range ord {
+		p[k], kp[k], bd[k] = pd.p[o], pd.kp[o], pd.bound[o]
+		copy(px[3*k:3*k+3], pd.px[3*o:3*o+3])
+		copy(e[k*n:(k+1)*n], pd.e[o*n:(o+1)*n])
+	}
+	pd.p, pd.px, pd.kp, pd.bound, pd.e = p, px, kp, bd, e
 }
 
 // work is per-goroutine scratch space for quartet evaluation.
@@ -310,16 +394,22 @@ func (e *ERI) quartet(A, B *pairData, w *work, out []float64) {
 		return
 	}
 	L := A.la + A.lb + B.la + B.lb
-	nhA, nhB := A.nh, B.nh
 	if L == 0 {
 		// (ss|ss): one function each, Hermite order 0.
 		sum := 0.0
 		for a := 0; a < A.np; a++ {
+			ba := A.bound[a]
+			if ba*B.bound[0] < PrimitiveQuartetThreshold {
+				break
+			}
 			p := A.p[a]
 			pa := A.px[3*a : 3*a+3]
 			ka := A.kp[a] * A.e[a]
 			inner := 0.0
 			for c := 0; c < B.np; c++ {
+				if ba*B.bound[c] < PrimitiveQuartetThreshold {
+					break
+				}
 				q := B.p[c]
 				qc := B.px[3*c : 3*c+3]
 				dx, dy, dz := pa[0]-qc[0], pa[1]-qc[1], pa[2]-qc[2]
@@ -332,48 +422,74 @@ func (e *ERI) quartet(A, B *pairData, w *work, out []float64) {
 		out[0] = twoPi52 * sum
 		return
 	}
+	if mdCost(B, A) < mdCost(A, B) {
+		perm := w.perm[:nfA*nfB]
+		e.quartetMD(B, A, w, perm)
+		for fb := 0; fb < nfB; fb++ {
+			for fa := 0; fa < nfA; fa++ {
+				out[fa*nfB+fb] = perm[fb*nfA+fa]
+			}
+		}
+		return
+	}
+	e.quartetMD(A, B, w, out)
+}
+
+// quartetMD is the general McMurchie–Davidson quartet with A as bra; out
+// must be zero on entry.
+func (e *ERI) quartetMD(A, B *pairData, w *work, out []float64) {
+	nfA, nfB := A.nf, B.nf
+	for k := range out[:nfA*nfB] {
+		out[k] = 0
+	}
+	L := A.la + A.lb + B.la + B.lb
+	nhA := A.nh
 	r, tmp, f := w.r, w.tmp, w.f
 	x := w.x[:nhA*nfB]
-	y := w.y[:nhB]
-	sum, sign, nph := herm.sum, herm.sign, herm.nPairH
+	sum, nph := herm.sum, herm.nPairH
+	nzS, nzH := B.nzStart, B.nzH
 	for a := 0; a < A.np; a++ {
+		ba := A.bound[a]
+		if ba*B.bound[0] < PrimitiveQuartetThreshold {
+			break
+		}
 		p := A.p[a]
 		pa := A.px[3*a : 3*a+3]
-		for k := range x {
-			x[k] = 0
+		for _, h := range A.usedH {
+			xr := x[int(h)*nfB : int(h+1)*nfB]
+			for g := range xr {
+				xr[g] = 0
+			}
 		}
 		for c := 0; c < B.np; c++ {
+			if ba*B.bound[c] < PrimitiveQuartetThreshold {
+				break
+			}
 			q := B.p[c]
 			qc := B.px[3*c : 3*c+3]
 			pq := [3]float64{pa[0] - qc[0], pa[1] - qc[1], pa[2] - qc[2]}
 			alpha := p * q / (p + q)
 			boys(L, alpha*(pq[0]*pq[0]+pq[1]*pq[1]+pq[2]*pq[2]), f)
 			hermiteR(L, alpha, pq, f, twoPi52*A.kp[a]*B.kp[c]/math.Sqrt(p+q), r, tmp)
-			ec := B.e[c*nfB*nhB : (c+1)*nfB*nhB]
-			for h := 0; h < nhA; h++ {
-				srow := sum[h*nph : h*nph+nhB]
-				for h2, s := range srow {
-					y[h2] = r[s] * sign[h2]
-				}
-				xr := x[h*nfB : (h+1)*nfB]
+			ek := B.esK[c*B.nnz : (c+1)*B.nnz]
+			for _, h := range A.usedH {
+				base := sum[int(h)*nph : int(h+1)*nph]
+				xr := x[int(h)*nfB : int(h+1)*nfB]
 				for g := range xr {
-					eg := ec[g*nhB : (g+1)*nhB]
 					v := 0.0
-					for h2, yy := range y {
-						v += yy * eg[h2]
+					for j := nzS[g]; j < nzS[g+1]; j++ {
+						v += r[base[nzH[j]]] * ek[j]
 					}
 					xr[g] += v
 				}
 			}
 		}
-		ea := A.e[a*nfA*nhA : (a+1)*nfA*nhA]
+		ea := A.es[a*A.nnz : (a+1)*A.nnz]
 		for fa := 0; fa < nfA; fa++ {
 			o := out[fa*nfB : (fa+1)*nfB]
-			er := ea[fa*nhA : (fa+1)*nhA]
-			for h, ev := range er {
-				if ev == 0 {
-					continue
-				}
+			for j := A.nzStart[fa]; j < A.nzStart[fa+1]; j++ {
+				ev := ea[j]
+				h := int(A.nzH[j])
 				xr := x[h*nfB : (h+1)*nfB]
 				for g := range o {
 					o[g] += ev * xr[g]

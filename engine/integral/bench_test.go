@@ -1,0 +1,86 @@
+package integral
+
+import (
+	"math"
+	"testing"
+
+	"gonum.org/v1/gonum/mat"
+
+	"moltrail/engine/basis"
+	"moltrail/engine/molecule"
+)
+
+// benzene in the D6h geometry C–C 1.39 Å, C–H 1.09 Å, in the xy plane.
+func benzene() []molecule.Atom {
+	var atoms []molecule.Atom
+	for k := 0; k < 6; k++ {
+		phi := float64(k) * math.Pi / 3
+		rc := 1.39 * molecule.AngstromBohr
+		rh := (1.39 + 1.09) * molecule.AngstromBohr
+		atoms = append(atoms, molecule.MustAtom("C", rc*math.Cos(phi), rc*math.Sin(phi), 0))
+		atoms = append(atoms, molecule.MustAtom("H", rh*math.Cos(phi), rh*math.Sin(phi), 0))
+	}
+	return atoms
+}
+
+// water in the geometry of the textbook programming exercise (bohr).
+func water() []molecule.Atom {
+	return []molecule.Atom{
+		molecule.MustAtom("O", 0, -0.143225816552, 0),
+		molecule.MustAtom("H", 1.638036840407, 1.136548822547, 0),
+		molecule.MustAtom("H", -1.638036840407, 1.136548822547, 0),
+	}
+}
+
+// guessDensity is a symmetric positive test density (not a physical one):
+// the inverse overlap scaled down, which has the right structure for J/K.
+func testDensity(mb *basis.Molecular) *mat.SymDense {
+	S := Overlap(mb)
+	n := mb.NBasis
+	D := mat.NewSymDense(n, nil)
+	for a := 0; a < n; a++ {
+		for b := a; b < n; b++ {
+			D.SetSym(a, b, 0.1*S.At(a, b)*math.Cos(float64(a-b)))
+		}
+	}
+	return D
+}
+
+func benchJK(b *testing.B, name string, atoms []molecule.Atom, threads int, budget int64) {
+	mb, _ := buildBasis(b, name, "", atoms...)
+	D := testDensity(mb)
+	b.ResetTimer()
+	for it := 0; it < b.N; it++ {
+		eri, err := NewERI(mb, Options{Threads: threads, MemoryBudgetBytes: budget})
+		if err != nil {
+			b.Fatal(err)
+		}
+		eri.JK([]*mat.SymDense{D}, true) // computes and stores (or direct)
+		if it == 0 {
+			b.Logf("%s: %d functions; %v", name, mb.NBasis, eri.Stats())
+		}
+	}
+}
+
+func BenchmarkERIBenzeneCCPVDZ1Thread(b *testing.B)  { benchJK(b, "cc-pvdz", benzene(), 1, 0) }
+func BenchmarkERIBenzeneCCPVDZ2Threads(b *testing.B) { benchJK(b, "cc-pvdz", benzene(), 2, 0) }
+func BenchmarkERIWaterCCPVTZ1Thread(b *testing.B)    { benchJK(b, "cc-pvtz", water(), 1, 0) }
+func BenchmarkERIWaterCCPVQZ1Thread(b *testing.B)    { benchJK(b, "cc-pvqz", water(), 1, 0) }
+
+// One in-core J/K contraction (integrals already stored).
+func benchReplay(b *testing.B, threads int) {
+	mb, _ := buildBasis(b, "cc-pvdz", "", benzene()...)
+	D := testDensity(mb)
+	eri, err := NewERI(mb, Options{Threads: threads})
+	if err != nil {
+		b.Fatal(err)
+	}
+	eri.JK([]*mat.SymDense{D}, true)
+	b.ResetTimer()
+	for it := 0; it < b.N; it++ {
+		eri.JK([]*mat.SymDense{D}, true)
+	}
+}
+
+func BenchmarkJKReplayBenzene1Thread(b *testing.B)  { benchReplay(b, 1) }
+func BenchmarkJKReplayBenzene2Threads(b *testing.B) { benchReplay(b, 2) }
