@@ -7,6 +7,7 @@ require (
 	github.com/jung-kurt/gofpdf v1.16.2
 	github.com/santhosh-tekuri/jsonschema/v6 v6.0.3
 	github.com/schollz/progressbar/v3 v3.19.1
+	golang.org/x/image v0.48.0
 	gonum.org/v1/gonum v0.17.0
 )
 
@@ -24,8 +25,8 @@ require (
 	go.opentelemetry.io/otel v1.41.0 // indirect
 	go.opentelemetry.io/otel/metric v1.41.0 // indirect
 	go.opentelemetry.io/otel/trace v1.41.0 // indirect
-	golang.org/x/sys v0.46.0 // indirect
+	golang.org/x/sys v0.50.0 // indirect
 	golang.org/x/term v0.44.0 // indirect
-	golang.org/x/text v0.23.0 // indirect
+	golang.org/x/text v0.44.0 // indirect
 	google.golang.org/protobuf v1.36.7 // indirect
 )
