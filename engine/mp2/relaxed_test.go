@@ -79,3 +79,54 @@ func TestRelaxedMatchesFiniteField(t *testing.T) {
 		t.Logf("%s: analytic %.10f finite field %.10f (est. %.1e)", c.name, got, ff.DipoleAU, ff.ErrorEstimateAU)
 	}
 }
+
+// TestRelaxedSecondMoment: the relaxed density also gives the derivative
+// of the MP2 energy with respect to a perturbation g·⟨μ|(r−O)_i(r−O)_j|ν⟩,
+// i.e. the relaxed second moments (and so the relaxed quadrupole):
+// dE/dg = Σ_μν D^relaxed_μν ⟨μ|r_i r_j|ν⟩, checked by central differences
+// (steps h and 2h, Richardson) for every component (internal consistency).
+// The water cation (²B1, no degeneracy that a field gradient could split) is used.
+func TestRelaxedSecondMoment(t *testing.T) {
+	m, mb := build(t, "6-31g", true, 1, 2,
+		molecule.MustAtom("O", 0, -0.143225816552, 0.05),
+		molecule.MustAtom("H", 1.638036840407, 1.136548822547, 0),
+		molecule.MustAtom("H", -1.538036840407, 1.136548822547, 0.1))
+	so := scf.Options{Reference: "uhf", EnergyTolHartree: 1e-12, DensityTol: 1e-10, GradientTol: 1e-9}
+	sr := runSCF(t, m, mb, so)
+	r, err := Run(m, mb, sr, Options{Relaxed: true, FrozenCore: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	origin := [3]float64{0.2, -0.1, 0.9}
+	_, second := integral.Multipole(mb, origin)
+	D := mat.NewSymDense(mb.NBasis, nil)
+	D.AddSym(r.RelaxedDa, r.RelaxedDb)
+	so.ERI = sr.ERI
+	energy := func(k int, g float64) float64 {
+		o := so
+		v := mat.NewSymDense(mb.NBasis, nil)
+		v.ScaleSym(g, second[k])
+		o.Perturbation = v
+		s := runSCF(t, m, mb, o)
+		q, err := Run(m, mb, s, Options{FrozenCore: true})
+		if err != nil {
+			t.Fatal(err)
+		}
+		return s.Energy + q.CorrelationHartree
+	}
+	const h = 1e-3
+	for k := 0; k < 6; k++ {
+		d1 := (energy(k, h) - energy(k, -h)) / (2 * h)
+		d2 := (energy(k, 2*h) - energy(k, -2*h)) / (4 * h)
+		fd := (4*d1 - d2) / 3
+		an := 0.0
+		for i := 0; i < mb.NBasis; i++ {
+			for j := 0; j < mb.NBasis; j++ {
+				an += D.At(i, j) * second[k].At(i, j)
+			}
+		}
+		if math.Abs(an-fd) > 1e-7 {
+			t.Errorf("second moment %d: analytic %.9f, finite difference %.9f (h vs Richardson %.1e)", k, an, fd, math.Abs(d1-fd))
+		}
+	}
+}
