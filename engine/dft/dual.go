@@ -77,7 +77,29 @@ func pow(a dual, p float64) dual {
 	if a.v == 0 && p > 1 {
 		return dual{}
 	}
-	f := math.Pow(a.v, p)
+	var f float64
+	switch p {
+	// the exponents the kernels use, through Cbrt (much cheaper than Pow)
+	case 1.0 / 3:
+		f = math.Cbrt(a.v)
+	case -1.0 / 3:
+		f = 1 / math.Cbrt(a.v)
+	case 2.0 / 3:
+		c := math.Cbrt(a.v)
+		f = c * c
+	case 4.0 / 3:
+		f = a.v * math.Cbrt(a.v)
+	case 8.0 / 3:
+		c := math.Cbrt(a.v)
+		f = a.v * a.v * c * c
+	case -11.0 / 3:
+		c := math.Cbrt(a.v)
+		f = 1 / (a.v * a.v * a.v * c * c)
+	case -1:
+		f = 1 / a.v
+	default:
+		f = math.Pow(a.v, p)
+	}
 	return chain(a, f, p*f/a.v)
 }
 

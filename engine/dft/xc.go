@@ -1,0 +1,386 @@
+package dft
+
+import (
+	"fmt"
+	"math"
+	"sync"
+
+	"gonum.org/v1/gonum/blas"
+	"gonum.org/v1/gonum/blas/blas64"
+	"gonum.org/v1/gonum/mat"
+
+	"moltrail/engine/basis"
+	"moltrail/engine/molecule"
+)
+
+// XC integrates a functional over a molecular grid: the exchange–
+// correlation energy and its Fock-matrix contribution for given densities.
+type XC struct {
+	fn      *Functional
+	grid    *Grid
+	shells  []gridShell
+	nbf     int
+	threads int
+	// per batch: significant shells and their functions
+	blist  [][]int
+	bfuncs [][]int
+	lmax   int
+	nchunk int
+
+	electrons float64
+}
+
+// NewXC prepares the XC integration of a functional (see NewFunctional for
+// the definitions accepted) for a basis on a molecule. threads < 1 means 1.
+func NewXC(mol *molecule.Molecule, mb *basis.Molecular, functionalDef string, spec GridSpec, threads int) (*XC, error) {
+	fn, err := NewFunctional(functionalDef)
+	if err != nil {
+		return nil, err
+	}
+	if threads < 1 {
+		threads = 1
+	}
+	g, err := NewGrid(mol, spec, threads)
+	if err != nil {
+		return nil, err
+	}
+	x := &XC{fn: fn, grid: g, nbf: mb.NBasis, threads: threads}
+	for _, sh := range mb.Shells {
+		if sh.L > 7 {
+			return nil, fmt.Errorf("dft: basis %q: shell of angular momentum %d is beyond the grid code's l ≤ 7", mb.Set.Name, sh.L)
+		}
+		x.lmax = max(x.lmax, sh.L)
+	}
+	x.shells = prepareShells(mb, spec.BasisCut)
+	x.blist = make([][]int, len(g.batches))
+	x.bfuncs = make([][]int, len(g.batches))
+	for b, bt := range g.batches {
+		for si, s := range x.shells {
+			d := math.Sqrt(sq3(bt.centre, s.centre))
+			if d-bt.radius <= s.extent {
+				x.blist[b] = append(x.blist[b], si)
+				for k := 0; k < s.nfunc; k++ {
+					x.bfuncs[b] = append(x.bfuncs[b], s.offset+k)
+				}
+			}
+		}
+	}
+	// a fixed number of chunks (from the problem size only, never from the
+	// thread count), each with its own accumulators, summed in order
+	const budget = 256 << 20
+	per := 2 * 8 * mb.NBasis * mb.NBasis
+	x.nchunk = min(16, len(g.batches), max(1, budget/max(per, 1)))
+	if x.nchunk < 1 {
+		x.nchunk = 1
+	}
+	return x, nil
+}
+
+func sq3(a, b [3]float64) float64 {
+	dx, dy, dz := a[0]-b[0], a[1]-b[1], a[2]-b[2]
+	return dx*dx + dy*dy + dz*dz
+}
+
+// Grid is the integration grid.
+func (x *XC) Grid() *Grid { return x.grid }
+
+// Functional returns the functional being integrated.
+func (x *XC) Functional() *Functional { return x.fn }
+
+// Definition is the stored functional definition string.
+func (x *XC) Definition() string { return x.fn.def }
+
+// ExactExchange is the fraction of Hartree–Fock exchange the SCF must add.
+func (x *XC) ExactExchange() float64 { return x.fn.hf }
+
+// IntegratedElectrons is ∫ρ over the grid from the last Compute.
+func (x *XC) IntegratedElectrons() float64 { return x.electrons }
+
+type accum struct {
+	va, vb []float64 // nbf × nbf, only the upper triangle is meaningful
+	exc, n float64
+}
+
+// Compute returns the XC energy and potential matrices for the α and β
+// density matrices. When Da and Db are the same matrix the density is
+// treated as restricted (each the half of the total) and Va == Vb.
+func (x *XC) Compute(Da, Db *mat.SymDense) (float64, *mat.SymDense, *mat.SymDense, error) {
+	if Da == nil || Db == nil {
+		return 0, nil, nil, fmt.Errorf("dft: density matrix missing")
+	}
+	n := x.nbf
+	if Da.SymmetricDim() != n || Db.SymmetricDim() != n {
+		return 0, nil, nil, fmt.Errorf("dft: density matrices are %d×%d and %d×%d, the basis has %d functions", Da.SymmetricDim(), Da.SymmetricDim(), Db.SymmetricDim(), Db.SymmetricDim(), n)
+	}
+	restricted := Da == Db
+	full := func(d *mat.SymDense, f float64) []float64 {
+		out := make([]float64, n*n)
+		for i := 0; i < n; i++ {
+			for j := i; j < n; j++ {
+				v := f * d.At(i, j)
+				out[i*n+j], out[j*n+i] = v, v
+			}
+		}
+		return out
+	}
+	var da, db []float64
+	if restricted {
+		da = full(Da, 2) // total density
+	} else {
+		da, db = full(Da, 1), full(Db, 1)
+	}
+	acc := make([]accum, x.nchunk)
+	nb := len(x.grid.batches)
+	jobs := make(chan int, x.nchunk)
+	for c := 0; c < x.nchunk; c++ {
+		jobs <- c
+	}
+	close(jobs)
+	var wg sync.WaitGroup
+	var firstErr error
+	var mu sync.Mutex
+	for t := 0; t < min(x.threads, x.nchunk); t++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			w := x.newWork(restricted)
+			for c := range jobs {
+				a := &acc[c]
+				a.va = make([]float64, n*n)
+				if !restricted {
+					a.vb = make([]float64, n*n)
+				}
+				for b := c * nb / x.nchunk; b < (c+1)*nb/x.nchunk; b++ {
+					if err := x.batch(b, da, db, a, w); err != nil {
+						mu.Lock()
+						if firstErr == nil {
+							firstErr = err
+						}
+						mu.Unlock()
+						return
+					}
+				}
+			}
+		}()
+	}
+	wg.Wait()
+	if firstErr != nil {
+		return 0, nil, nil, firstErr
+	}
+	va := make([]float64, n*n)
+	var vb []float64
+	if !restricted {
+		vb = make([]float64, n*n)
+	}
+	exc, ne := 0.0, 0.0
+	for c := range acc {
+		exc += acc[c].exc
+		ne += acc[c].n
+		for i := 0; i < n; i++ {
+			for j := i; j < n; j++ {
+				va[i*n+j] += acc[c].va[i*n+j]
+				if vb != nil {
+					vb[i*n+j] += acc[c].vb[i*n+j]
+				}
+			}
+		}
+	}
+	x.electrons = ne
+	if math.IsNaN(exc) || math.IsInf(exc, 0) {
+		return 0, nil, nil, fmt.Errorf("dft: %s: the exchange–correlation energy is not finite", x.fn.def)
+	}
+	Va := mat.NewSymDense(n, va)
+	if restricted {
+		return exc, Va, Va, nil
+	}
+	return exc, Va, mat.NewSymDense(n, vb), nil
+}
+
+// work is one worker's scratch space.
+type work struct {
+	phi        []float64
+	grad       [3][]float64
+	xa, xb     []float64 // Φ·D
+	za, zb     []float64 // weighted potential rows
+	dloc       []float64
+	vloc       []float64
+	rho, sigma []float64
+	e, vrho    []float64
+	vsigma     []float64
+	gra, grb   [3][]float64 // density gradients per point
+	sw         []float64
+}
+
+func (x *XC) newWork(restricted bool) *work {
+	m := maxBatch
+	nf := 0
+	for _, f := range x.bfuncs {
+		nf = max(nf, len(f))
+	}
+	w := &work{
+		phi: make([]float64, m*nf), xa: make([]float64, m*nf), za: make([]float64, m*nf),
+		dloc: make([]float64, nf*nf), vloc: make([]float64, nf*nf),
+		rho: make([]float64, 2*m), sigma: make([]float64, 3*m),
+		e: make([]float64, m), vrho: make([]float64, 2*m), vsigma: make([]float64, 3*m),
+		sw: make([]float64, 4*basis.NCart(x.lmax)),
+	}
+	if !restricted {
+		w.xb, w.zb = make([]float64, m*nf), make([]float64, m*nf)
+	}
+	if x.fn.gga {
+		for d := 0; d < 3; d++ {
+			w.grad[d] = make([]float64, m*nf)
+			w.gra[d] = make([]float64, m)
+			w.grb[d] = make([]float64, m)
+		}
+	}
+	return w
+}
+
+func general(r, c int, d []float64) blas64.General {
+	return blas64.General{Rows: r, Cols: c, Stride: c, Data: d[:r*c]}
+}
+
+// density computes X = Φ·D_loc and ρ_p = Σ X∘Φ, ∇ρ_p = 2 Σ X∘∇Φ.
+func (x *XC) density(d []float64, funcs []int, np, nl int, w *work, X []float64, rho []float64, rstride int, grho [3][]float64) {
+	n := x.nbf
+	for i, fi := range funcs {
+		for j, fj := range funcs {
+			w.dloc[i*nl+j] = d[fi*n+fj]
+		}
+	}
+	blas64.Gemm(blas.NoTrans, blas.NoTrans, 1, general(np, nl, w.phi), general(nl, nl, w.dloc), 0, general(np, nl, X))
+	for p := 0; p < np; p++ {
+		row := X[p*nl : (p+1)*nl]
+		ph := w.phi[p*nl : (p+1)*nl]
+		s := 0.0
+		for k, v := range row {
+			s += v * ph[k]
+		}
+		rho[p*rstride] = s
+		if grho[0] != nil {
+			for dd := 0; dd < 3; dd++ {
+				g := w.grad[dd][p*nl : (p+1)*nl]
+				t := 0.0
+				for k, v := range row {
+					t += v * g[k]
+				}
+				grho[dd][p] = 2 * t
+			}
+		}
+	}
+}
+
+// potential forms Z_pk = w_p (½ vρ_p φ_pk + G_p·∇φ_pk) and adds
+// Φᵀ Z + Zᵀ Φ to the upper triangle of v.
+func (x *XC) potential(funcs []int, np, nl int, wts, vr []float64, vrStride int, G [3][]float64, Z []float64, work *work, v []float64) {
+	for p := 0; p < np; p++ {
+		a := 0.5 * wts[p] * vr[p*vrStride]
+		z := Z[p*nl : (p+1)*nl]
+		ph := work.phi[p*nl : (p+1)*nl]
+		if G[0] == nil {
+			for k := range z {
+				z[k] = a * ph[k]
+			}
+			continue
+		}
+		gx, gy, gz := wts[p]*G[0][p], wts[p]*G[1][p], wts[p]*G[2][p]
+		px := work.grad[0][p*nl : (p+1)*nl]
+		py := work.grad[1][p*nl : (p+1)*nl]
+		pz := work.grad[2][p*nl : (p+1)*nl]
+		for k := range z {
+			z[k] = a*ph[k] + gx*px[k] + gy*py[k] + gz*pz[k]
+		}
+	}
+	blas64.Gemm(blas.Trans, blas.NoTrans, 1, general(np, nl, work.phi), general(np, nl, Z), 0, general(nl, nl, work.vloc))
+	n := x.nbf
+	for i, fi := range funcs {
+		for j, fj := range funcs {
+			if fj < fi {
+				continue
+			}
+			v[fi*n+fj] += work.vloc[i*nl+j] + work.vloc[j*nl+i]
+		}
+	}
+}
+
+func (x *XC) batch(b int, da, db []float64, acc *accum, w *work) error {
+	bt := x.grid.batches[b]
+	funcs := x.bfuncs[b]
+	nl := len(funcs)
+	if nl == 0 {
+		return nil
+	}
+	np := bt.end - bt.start
+	X, Y, Z, W := x.grid.X[bt.start:bt.end], x.grid.Y[bt.start:bt.end], x.grid.Z[bt.start:bt.end], x.grid.W[bt.start:bt.end]
+	gga := x.fn.gga
+	var grad [3][]float64
+	if gga {
+		grad = w.grad
+	}
+	evalShells(x.shells, x.blist[b], X, Y, Z, nl, w.phi, grad, w.sw)
+	cut := x.grid.Spec.DensityCut
+	if db == nil {
+		x.density(da, funcs, np, nl, w, w.xa, w.rho, 1, w.gra)
+		for p := 0; p < np; p++ {
+			acc.n += W[p] * w.rho[p]
+			if gga {
+				w.sigma[p] = w.gra[0][p]*w.gra[0][p] + w.gra[1][p]*w.gra[1][p] + w.gra[2][p]*w.gra[2][p]
+			}
+			if !(w.rho[p] > cut) {
+				w.rho[p] = 0 // screened: the kernel returns zeros
+			}
+		}
+		x.fn.EvalUnpolarized(w.rho[:np], w.sigma[:np], w.e[:np], w.vrho[:np], w.vsigma[:np])
+		for p := 0; p < np; p++ {
+			acc.exc += W[p] * w.e[p]
+		}
+		var G [3][]float64
+		if gga {
+			// G = 2 vσ ∇ρ, kept in place of ∇ρ
+			for p := 0; p < np; p++ {
+				f := 2 * w.vsigma[p]
+				w.gra[0][p] *= f
+				w.gra[1][p] *= f
+				w.gra[2][p] *= f
+			}
+			G = w.gra
+		}
+		x.potential(funcs, np, nl, W, w.vrho, 1, G, w.za, w, acc.va)
+		return nil
+	}
+	x.density(da, funcs, np, nl, w, w.xa, w.rho, 2, w.gra)
+	x.density(db, funcs, np, nl, w, w.xb, w.rho[1:], 2, w.grb)
+	for p := 0; p < np; p++ {
+		acc.n += W[p] * (w.rho[2*p] + w.rho[2*p+1])
+		if gga {
+			a, bb := w.gra, w.grb
+			w.sigma[3*p] = a[0][p]*a[0][p] + a[1][p]*a[1][p] + a[2][p]*a[2][p]
+			w.sigma[3*p+1] = a[0][p]*bb[0][p] + a[1][p]*bb[1][p] + a[2][p]*bb[2][p]
+			w.sigma[3*p+2] = bb[0][p]*bb[0][p] + bb[1][p]*bb[1][p] + bb[2][p]*bb[2][p]
+		}
+		if !(w.rho[2*p]+w.rho[2*p+1] > cut) {
+			w.rho[2*p], w.rho[2*p+1] = 0, 0
+		}
+	}
+	x.fn.EvalPolarized(w.rho[:2*np], w.sigma[:3*np], w.e[:np], w.vrho[:2*np], w.vsigma[:3*np])
+	for p := 0; p < np; p++ {
+		acc.exc += W[p] * w.e[p]
+	}
+	var Ga, Gb [3][]float64
+	if gga {
+		// Gα = 2 vσαα ∇ρα + vσαβ ∇ρβ, Gβ = 2 vσββ ∇ρβ + vσαβ ∇ρα
+		for p := 0; p < np; p++ {
+			saa, sab, sbb := w.vsigma[3*p], w.vsigma[3*p+1], w.vsigma[3*p+2]
+			for d := 0; d < 3; d++ {
+				ga, gb := w.gra[d][p], w.grb[d][p]
+				w.gra[d][p] = 2*saa*ga + sab*gb
+				w.grb[d][p] = 2*sbb*gb + sab*ga
+			}
+		}
+		Ga, Gb = w.gra, w.grb
+	}
+	x.potential(funcs, np, nl, W, w.vrho, 2, Ga, w.za, w, acc.va)
+	x.potential(funcs, np, nl, W, w.vrho[1:], 2, Gb, w.zb, w, acc.vb)
+	return nil
+}
