@@ -82,6 +82,7 @@ func fixture(t testing.TB, nMol int) (*compare.Table, []archive.Record) {
 	for _, l := range fixLevels {
 		tbl.Levels = append(tbl.Levels, compare.Level{Label: levelLabel(l), Method: l.method, Basis: l.basis, FrozenCore: l.fc})
 	}
+	sets := map[string]*basis.Set{}
 	for i := 0; i < nMol; i++ {
 		bm := baseMols[i%len(baseMols)]
 		name := bm.name
@@ -89,9 +90,13 @@ func fixture(t testing.TB, nMol int) (*compare.Table, []archive.Record) {
 			name = fmt.Sprintf("%s %d", bm.name, i/len(baseMols)+1)
 		}
 		for li, l := range fixLevels {
-			set, err := basis.Builtin(l.basis)
-			if err != nil {
-				t.Fatal(err)
+			set, ok := sets[l.basis]
+			if !ok {
+				var err error
+				if set, err = basis.Builtin(l.basis); err != nil {
+					t.Fatal(err)
+				}
+				sets[l.basis] = set
 			}
 			job := engine.Job{Version: engine.CanonicalVersion, Method: l.method, Task: "optimize", SCF: engine.DefaultSCF, Origin: engine.DefaultOrigin,
 				Basis: engine.BasisSpec{Name: set.Name, File: set.File, SHA256: set.SHA256, Angular: set.Angular},
