@@ -24,7 +24,7 @@ var catalogue = []CautionInfo{
 	{CodeNoise, "deviation within the noise",
 		"The deviation is smaller than the reference's stated uncertainty or than the precision the calculation's convergence criteria guarantee. It is not significant: neither its size nor its sign means anything."},
 	{CodeExcluded, "record left out",
-		"A record that matches a reference molecule was not used because it did not converge or failed. It is listed so that nothing is dropped silently."},
+		"A record that carries a reference molecule's name was not used: it did not converge, failed, or is another species (charge or spin state) of the same atoms. It is listed so that nothing is dropped silently."},
 }
 
 // Legend returns the explanation of every caution code.
@@ -235,8 +235,22 @@ func standardNotes(t *Table) []string {
 	if mem > 0 {
 		notes = append(notes, fmt.Sprintf("%d of %d reference values used are marked as recalled from their cited source rather than transcribed; check them against the source before publishing.", mem, len(t.Deviations)))
 	}
+	// Traceless quadrupole components of one molecule sum to zero, so
+	// their deviations are not independent: a mean over them says little.
+	perMol := map[string]int{}
+	for _, d := range t.Deviations {
+		if d.Kind == KindQuadrupole {
+			perMol[d.Level+"|"+d.Molecule]++
+		}
+	}
+	for _, n := range perMol {
+		if n > 1 {
+			notes = append(notes, "Several quadrupole components of one molecule enter the statistics; the components of a traceless quadrupole sum to zero, so their deviations are not independent and their mean is pulled towards zero.")
+			break
+		}
+	}
 	if len(t.Excluded) > 0 {
-		notes = append(notes, fmt.Sprintf("%d record(s) matching reference molecules were left out because they did not converge or failed (see the excluded list).", len(t.Excluded)))
+		notes = append(notes, fmt.Sprintf("%d record(s) matching reference molecules were left out (not converged, failed, or another charge or spin state; see the list of records left out).", len(t.Excluded)))
 	}
 	return notes
 }

@@ -192,23 +192,24 @@ func shortID(id string) string {
 }
 
 // checkIdentity verifies that a record named like a reference molecule
-// really is it: formula, charge and (if given) multiplicity.
-func checkIdentity(entryID string, m *RefMolecule, rm *recMol) error {
+// really is it. A different formula under the same name is an error (the
+// pairing would be wrong); a different charge or multiplicity means a
+// different species of the same atoms (an ion, another spin state), which
+// is returned as a reason to leave the record out.
+func checkIdentity(entryID string, m *RefMolecule, rm *recMol) (other string, err error) {
 	want, _ := ParseFormula(m.Formula)
 	r := rm.rec
 	if !sameCounts(want, rm.counts) {
-		return fmt.Errorf("entry %q (%s, %s): record %s is named %q but its atoms make %s: the names match, the molecules do not; rename the record's molecule or leave it out with a selection flag",
+		return "", fmt.Errorf("entry %q (%s, %s): record %s is named %q but its atoms make %s: the names match, the molecules do not; rename the record's molecule or leave it out with a selection flag",
 			entryID, m.Name, m.Formula, shortID(r.ID), r.Input.Molecule.Name, hill(rm.counts))
 	}
 	if r.Input.Molecule.Charge != m.Charge {
-		return fmt.Errorf("entry %q (%s, %s): record %s has charge %+d but the entry is for charge %+d",
-			entryID, m.Name, m.Formula, shortID(r.ID), r.Input.Molecule.Charge, m.Charge)
+		return fmt.Sprintf("charge %+d, but the reference molecule %s has charge %+d", r.Input.Molecule.Charge, m.Name, m.Charge), nil
 	}
 	if m.Multiplicity != 0 && r.Input.Molecule.Multiplicity != m.Multiplicity {
-		return fmt.Errorf("entry %q (%s, %s): record %s has multiplicity %d but the entry is for multiplicity %d",
-			entryID, m.Name, m.Formula, shortID(r.ID), r.Input.Molecule.Multiplicity, m.Multiplicity)
+		return fmt.Sprintf("multiplicity %d, but the reference molecule %s has multiplicity %d", r.Input.Molecule.Multiplicity, m.Name, m.Multiplicity), nil
 	}
-	return nil
+	return "", nil
 }
 
 // checkAtoms verifies atom by atom that the record's atoms carry the
@@ -273,15 +274,15 @@ func Compare(set *RefSet, records []*archive.Record, opt Options) (*Table, error
 		entry string // first entry that names it, for messages
 	}
 	mols := map[molKey]*refMol{}
-	var molOrder []molKey
+	keys := map[*RefMolecule]molKey{} // computed once per molecule of the set
 	byName := map[string][]molKey{}
 	addMol := func(m *RefMolecule, entryID string) {
 		k := keyOf(m)
+		keys[m] = k
 		if _, ok := mols[k]; ok {
 			return
 		}
 		mols[k] = &refMol{mol: *m, entry: entryID}
-		molOrder = append(molOrder, k)
 		for _, n := range m.names() {
 			byName[n] = appendUnique(byName[n], k)
 		}
@@ -310,8 +311,8 @@ func Compare(set *RefSet, records []*archive.Record, opt Options) (*Table, error
 			continue
 		}
 		seenRec[r.ID] = true
-		keys := byName[normName(r.Input.Molecule.Name)]
-		if len(keys) == 0 {
+		named := byName[normName(r.Input.Molecule.Name)]
+		if len(named) == 0 {
 			continue
 		}
 		rm := newRecMol(r)
@@ -332,18 +333,29 @@ func Compare(set *RefSet, records []*archive.Record, opt Options) (*Table, error
 		// charge it has; if none fits, the first names the error.
 		var matched []molKey
 		var firstErr error
-		for _, k := range keys {
+		var others []string
+		for _, k := range named {
 			rmol := mols[k]
-			if err := checkIdentity(rmol.entry, &rmol.mol, rm); err != nil {
+			other, err := checkIdentity(rmol.entry, &rmol.mol, rm)
+			if err != nil {
 				if firstErr == nil {
 					firstErr = err
 				}
 				continue
 			}
+			if other != "" {
+				others = append(others, other)
+				continue
+			}
 			matched = append(matched, k)
 		}
 		if len(matched) == 0 {
-			return nil, firstErr
+			if firstErr != nil {
+				return nil, firstErr
+			}
+			t.Excluded = append(t.Excluded, Excluded{RecordID: r.ID, Molecule: r.Input.Molecule.Name, Formula: hill(rm.counts), Level: rm.level.Label, Status: status,
+				Reason: "a different species under a reference molecule's name: " + strings.Join(others, "; ")})
+			continue
 		}
 		levels[rm.level.Label] = rm.level
 		for _, k := range matched {
@@ -423,14 +435,14 @@ func Compare(set *RefSet, records []*archive.Record, opt Options) (*Table, error
 			var err error
 			if e.Quantity.Kind == KindEnergyDelta {
 				dev, ctx, why = energyDelta(e, lv.Label, func(m *RefMolecule) (*recMol, string) {
-					return pickFor(keyOf(m), lv.Label, PurposeProperties)
+					return pickFor(keys[m], lv.Label, PurposeProperties)
 				})
 			} else {
-				rm, reason := pickFor(keyOf(&e.Molecule), lv.Label, purposeOf(e.Quantity.Kind))
+				rm, reason := pickFor(keys[&e.Molecule], lv.Label, purposeOf(e.Quantity.Kind))
 				if rm == nil {
 					// Only molecules that have records at this level are listed:
 					// a set usually covers more molecules than a study.
-					if len(cands[slot{keyOf(&e.Molecule), lv.Label}]) > 0 {
+					if len(cands[slot{keys[&e.Molecule], lv.Label}]) > 0 {
 						t.Unmatched = append(t.Unmatched, Unmatched{EntryID: e.ID, Molecule: e.Molecule.Name, Quantity: e.Quantity.Kind, Level: lv.Label, Reason: reason})
 					}
 					continue

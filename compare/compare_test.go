@@ -6,6 +6,7 @@ import (
 	"encoding/json"
 	"math"
 	"math/rand/v2"
+	"os"
 	"strings"
 	"testing"
 
@@ -455,5 +456,99 @@ func TestRenderings(t *testing.T) {
 	b2, _ := json.Marshal(tab2)
 	if !bytes.Equal(b, b2) {
 		t.Errorf("two runs gave different JSON")
+	}
+}
+
+// Records from real moltrail calculations (moltrail 0.1.0 at revision
+// c0d869c: `moltrail run` of CO at HF and MP2/aug-cc-pVDZ, water at HF
+// (energy and optimisation) and MP2/cc-pVDZ; exported with `moltrail
+// export` to testdata/co_water_records.jsonl).
+func TestRealRecords(t *testing.T) {
+	f, err := os.Open("testdata/co_water_records.jsonl")
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	recs, _, err := archive.ReadRecords(f, "co_water_records.jsonl")
+	if err != nil {
+		t.Fatal(err)
+	}
+	set, _ := Builtin("builtin")
+	tab, err := Compare(set, recs, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	co := find(tab, "co.mu-axis", "HF/aug-cc-pVDZ")
+	w := find(tab, "h2o.mu-axis", "HF/cc-pVDZ")
+	if co == nil || w == nil {
+		t.Fatalf("missing deviations: %+v", tab.Unmatched)
+	}
+	// Same numbers as psi4 1.3.2 for CO (−0.25971 D, testdata/psi4/scf_energies.json).
+	near(t, "CO HF μ(C→O)", co.Computed, -0.25971, 1e-4)
+	for _, c := range []string{CodeSmall, CodeFlip, CodeCancel, CodeFlipLevel} {
+		if !has(co.Cautions, c) {
+			t.Errorf("real CO HF dipole lacks %s: %v", c, co.Cautions)
+		}
+	}
+	for _, c := range []string{CodeSmall, CodeFlip, CodeCancel, CodeFlipLevel} {
+		if has(w.Cautions, c) {
+			t.Errorf("real water HF dipole carries %s: %v", c, w.Cautions)
+		}
+	}
+	if !has(w.Cautions, CodeDiffuse) {
+		t.Errorf("water at cc-pVDZ should carry %s", CodeDiffuse)
+	}
+	// Structure from the optimisation only; the newest water record
+	// (the optimisation) also stands for the properties.
+	r := find(tab, "h2o.r.o0-h1", "HF/cc-pVDZ")
+	if r == nil || r.RecordID[:12] != "e78d12c90d67" {
+		t.Fatalf("water O–H should come from the optimisation e78d12c90d67: %+v", r)
+	}
+	// HF/cc-pVDZ r_e(O–H) ≈ 0.946 Å (common knowledge, from memory): about −1.2 pm.
+	if r.Signed > -0.8 || r.Signed < -1.6 {
+		t.Errorf("HF/cc-pVDZ O–H deviation %.2f pm is implausible", r.Signed)
+	}
+}
+
+func TestIonUnderTheSameNameIsLeftOut(t *testing.T) {
+	set, _ := Builtin("structures-exp")
+	ion := waterOpt("hhhhion", "2025-01-01T00:00:00Z", 1.0, 110)
+	ion.charge, ion.mult = 1, 2
+	tab, err := Compare(set, []*archive.Record{ion.record()}, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(tab.Deviations) != 0 || len(tab.Excluded) != 1 || !strings.Contains(tab.Excluded[0].Reason, "charge +1") {
+		t.Errorf("a water cation named water must be left out and listed: %+v", tab.Excluded)
+	}
+}
+
+// BenchmarkCompare: the five real records cloned onto 40 levels (200
+// records) against all built-in sets, bootstrap 2000.
+func BenchmarkCompare(b *testing.B) {
+	f, err := os.Open("testdata/co_water_records.jsonl")
+	if err != nil {
+		b.Fatal(err)
+	}
+	base, _, err := archive.ReadRecords(f, "bench")
+	f.Close()
+	if err != nil {
+		b.Fatal(err)
+	}
+	var recs []*archive.Record
+	for l := 0; l < 40; l++ {
+		for _, r := range base {
+			c := *r
+			c.ID = r.ID + string(rune('a'+l%26)) + string(rune('a'+l/26))
+			c.Input.Basis.Name = r.Input.Basis.Name + "-v" + string(rune('a'+l%26)) + string(rune('a'+l/26))
+			recs = append(recs, &c)
+		}
+	}
+	set, _ := Builtin("builtin")
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		if _, err := Compare(set, recs, Options{}); err != nil {
+			b.Fatal(err)
+		}
 	}
 }

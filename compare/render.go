@@ -7,6 +7,7 @@ import (
 	"math"
 	"strconv"
 	"strings"
+	"time"
 	"unicode/utf8"
 )
 
@@ -31,7 +32,7 @@ func WriteText(w io.Writer, t *Table) error {
 		p.rule("records used")
 		g := &grid{head: []string{"molecule", "level", "for", "record", "started (UTC)", "why this one"}}
 		for _, pk := range t.Picked {
-			g.add(pk.Molecule, pk.Level, pk.Purpose, shortID(pk.RecordID), pk.DateUTC, pk.Reason)
+			g.add(pk.Molecule, pk.Level, pk.Purpose, shortID(pk.RecordID), when(pk.DateUTC), pk.Reason)
 		}
 		p.grid(g)
 	}
@@ -132,6 +133,15 @@ func WriteText(w io.Writer, t *Table) error {
 	}
 	p.line(" ᵐ marks a reference value recalled from its source, not transcribed.")
 	return p.err
+}
+
+// when shortens an RFC 3339 time to the second, in UTC.
+func when(s string) string {
+	t, err := time.Parse(time.RFC3339Nano, s)
+	if err != nil {
+		return s
+	}
+	return t.UTC().Format("2006-01-02 15:04:05")
 }
 
 func nonEmpty(s ...string) []string {

@@ -179,7 +179,7 @@ func (t *Table) levelDiffs(o Options) {
 				unit := NaturalUnit(kind)
 				ld := LevelDiff{LevelA: la, LevelB: lb, Kind: kind, Unit: unit, N: len(ids), Confidence: o.Confidence,
 					MeanDiff: stat.Mean(diff, nil), MAEDiff: stat.Mean(absDiff, nil)}
-				if len(ids) < 3 {
+				if len(ids) < minVerdict {
 					ld.Verdict = fmt.Sprintf("only %d common entr%s: too few to judge", len(ids), plural(len(ids), "y", "ies"))
 					t.LevelDiffs = append(t.LevelDiffs, ld)
 					continue
@@ -208,6 +208,9 @@ func (t *Table) levelDiffs(o Options) {
 		}
 	}
 }
+
+// minVerdict is the number of common entries below which level pairs get no verdict.
+const minVerdict = 5
 
 func plural(n int, one, many string) string {
 	if n == 1 {
