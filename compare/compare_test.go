@@ -552,3 +552,17 @@ func BenchmarkCompare(b *testing.B) {
 		}
 	}
 }
+
+func TestNamesAndAliases(t *testing.T) {
+	set, _ := Builtin("builtin")
+	for _, n := range []string{"water", "Water", "H2O", "NH3", "ammonia", "HF", "hydrogen fluoride", "methyl-chloride", "CH3Cl", "OCS"} {
+		if !set.Names(n) {
+			t.Errorf("%q should name a built-in molecule", n)
+		}
+	}
+	for _, n := range []string{"benzene", "H2O2", ""} {
+		if set.Names(n) {
+			t.Errorf("%q should not name a built-in molecule", n)
+		}
+	}
+}
