@@ -2,80 +2,81 @@ package dft
 
 import "math"
 
-// nvar is the number of independent variables carried by a dual number:
-// ρα, ρβ, σαα, σαβ, σββ.
-const nvar = 5
+// grad is the derivative part of a dual number: with respect to (ρ, σ) for
+// unpolarised kernels, or (ρα, ρβ, σαα, σαβ, σββ) for polarised ones. Two
+// array lengths keep the unpolarised arithmetic at two derivatives.
+type grad interface{ ~[2]float64 | ~[5]float64 }
 
 // dual is a forward-mode automatic-differentiation number: a value and its
-// partial derivatives with respect to the nvar kernel variables.
-type dual struct {
+// partial derivatives with respect to the kernel variables.
+type dual[G grad] struct {
 	v float64
-	d [nvar]float64
+	d G
 }
 
-func konst(x float64) dual { return dual{v: x} }
+func konst[G grad](x float64) dual[G] { return dual[G]{v: x} }
 
-func add(a, b dual) dual {
-	r := dual{v: a.v + b.v}
-	for i := range r.d {
+func add[G grad](a, b dual[G]) dual[G] {
+	r := dual[G]{v: a.v + b.v}
+	for i := range len(r.d) {
 		r.d[i] = a.d[i] + b.d[i]
 	}
 	return r
 }
 
-func sub(a, b dual) dual {
-	r := dual{v: a.v - b.v}
-	for i := range r.d {
+func sub[G grad](a, b dual[G]) dual[G] {
+	r := dual[G]{v: a.v - b.v}
+	for i := range len(r.d) {
 		r.d[i] = a.d[i] - b.d[i]
 	}
 	return r
 }
 
-func mul(a, b dual) dual {
-	r := dual{v: a.v * b.v}
-	for i := range r.d {
+func mul[G grad](a, b dual[G]) dual[G] {
+	r := dual[G]{v: a.v * b.v}
+	for i := range len(r.d) {
 		r.d[i] = a.d[i]*b.v + a.v*b.d[i]
 	}
 	return r
 }
 
-func div(a, b dual) dual {
+func div[G grad](a, b dual[G]) dual[G] {
 	q := a.v / b.v
-	r := dual{v: q}
-	for i := range r.d {
+	r := dual[G]{v: q}
+	for i := range len(r.d) {
 		r.d[i] = (a.d[i] - q*b.d[i]) / b.v
 	}
 	return r
 }
 
 // scale returns c·a.
-func scale(c float64, a dual) dual {
-	r := dual{v: c * a.v}
-	for i := range r.d {
+func scale[G grad](c float64, a dual[G]) dual[G] {
+	r := dual[G]{v: c * a.v}
+	for i := range len(r.d) {
 		r.d[i] = c * a.d[i]
 	}
 	return r
 }
 
 // addc returns a + c.
-func addc(a dual, c float64) dual {
+func addc[G grad](a dual[G], c float64) dual[G] {
 	a.v += c
 	return a
 }
 
 // chain applies a function of value f and derivative df to a.
-func chain(a dual, f, df float64) dual {
-	r := dual{v: f}
-	for i := range r.d {
+func chain[G grad](a dual[G], f, df float64) dual[G] {
+	r := dual[G]{v: f}
+	for i := range len(r.d) {
 		r.d[i] = df * a.d[i]
 	}
 	return r
 }
 
 // pow returns a^p for a constant exponent p (a > 0, or a = 0 with p > 1).
-func pow(a dual, p float64) dual {
+func pow[G grad](a dual[G], p float64) dual[G] {
 	if a.v == 0 && p > 1 {
-		return dual{}
+		return dual[G]{}
 	}
 	var f float64
 	switch p {
@@ -103,28 +104,28 @@ func pow(a dual, p float64) dual {
 	return chain(a, f, p*f/a.v)
 }
 
-func cbrt(a dual) dual {
+func cbrt[G grad](a dual[G]) dual[G] {
 	f := math.Cbrt(a.v)
 	return chain(a, f, f/(3*a.v))
 }
 
-func sqrt(a dual) dual {
+func sqrt[G grad](a dual[G]) dual[G] {
 	f := math.Sqrt(a.v)
 	return chain(a, f, 0.5/f)
 }
 
-func log(a dual) dual { return chain(a, math.Log(a.v), 1/a.v) }
+func log[G grad](a dual[G]) dual[G] { return chain(a, math.Log(a.v), 1/a.v) }
 
 // log1p returns ln(1+a).
-func log1p(a dual) dual { return chain(a, math.Log1p(a.v), 1/(1+a.v)) }
+func log1p[G grad](a dual[G]) dual[G] { return chain(a, math.Log1p(a.v), 1/(1+a.v)) }
 
-func exp(a dual) dual {
+func exp[G grad](a dual[G]) dual[G] {
 	f := math.Exp(a.v)
 	return chain(a, f, f)
 }
 
-func atan(a dual) dual { return chain(a, math.Atan(a.v), 1/(1+a.v*a.v)) }
+func atan[G grad](a dual[G]) dual[G] { return chain(a, math.Atan(a.v), 1/(1+a.v*a.v)) }
 
-func asinh(a dual) dual { return chain(a, math.Asinh(a.v), 1/math.Sqrt(1+a.v*a.v)) }
+func asinh[G grad](a dual[G]) dual[G] { return chain(a, math.Asinh(a.v), 1/math.Sqrt(1+a.v*a.v)) }
 
-func sq(a dual) dual { return mul(a, a) }
+func sq[G grad](a dual[G]) dual[G] { return mul(a, a) }

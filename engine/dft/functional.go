@@ -6,21 +6,26 @@ import (
 	"strings"
 )
 
-// component is one published exchange or correlation functional.
+type (
+	g2 = [2]float64 // ∂/∂(ρ, σ)
+	g5 = [5]float64 // ∂/∂(ρα, ρβ, σαα, σαβ, σββ)
+)
+
+// component is one published exchange or correlation functional (its
+// kernel: evalComponent).
 type component struct {
 	name string
 	gga  bool
-	e    func(v *spinVars) dual // energy density per volume
 }
 
 var components = map[string]component{
-	"slater":  {"slater", false, slaterX},
-	"vwn5":    {"vwn5", false, vwn5C},
-	"vwn-rpa": {"vwn-rpa", false, vwnRPAC},
-	"b88":     {"b88", true, b88X},
-	"lyp":     {"lyp", true, lypC},
-	"pbe-x":   {"pbe-x", true, pbeX},
-	"pbe-c":   {"pbe-c", true, pbeC},
+	"slater":  {"slater", false},
+	"vwn5":    {"vwn5", false},
+	"vwn-rpa": {"vwn-rpa", false},
+	"b88":     {"b88", true},
+	"lyp":     {"lyp", true},
+	"pbe-x":   {"pbe-x", true},
+	"pbe-c":   {"pbe-c", true},
 }
 
 type term struct {
@@ -104,12 +109,42 @@ func (f *Functional) ExactExchange() float64 { return f.hf }
 // IsGGA reports whether the functional depends on density gradients.
 func (f *Functional) IsGGA() bool { return f.gga }
 
-func (f *Functional) eval(v *spinVars) dual {
-	e := konst(0)
+func (f *Functional) eval2(v *spinVars[g2]) dual[g2] {
+	e := konst[g2](0)
 	for _, t := range f.terms {
-		e = add(e, scale(t.weight, t.c.e(v)))
+		e = add(e, scale(t.weight, evalComponent(t.c.name, v)))
 	}
 	return e
+}
+
+func (f *Functional) eval5(v *spinVars[g5]) dual[g5] {
+	e := konst[g5](0)
+	for _, t := range f.terms {
+		e = add(e, scale(t.weight, evalComponent(t.c.name, v)))
+	}
+	return e
+}
+
+// evalComponent calls the kernels statically (a call through a function
+// value would move the point's variables to the heap).
+func evalComponent[G grad](name string, v *spinVars[G]) dual[G] {
+	switch name {
+	case "slater":
+		return slaterX(v)
+	case "vwn5":
+		return vwn5C(v)
+	case "vwn-rpa":
+		return vwnRPAC(v)
+	case "b88":
+		return b88X(v)
+	case "lyp":
+		return lypC(v)
+	case "pbe-x":
+		return pbeX(v)
+	case "pbe-c":
+		return pbeC(v)
+	}
+	panic("dft: component " + name + " has no kernel") // unreachable: names come from the components table
 }
 
 // EvalUnpolarized evaluates the functional at n points of a spin-unpolarised
@@ -130,12 +165,12 @@ func (f *Functional) EvalUnpolarized(rho, sigma, e, vrho, vsigma []float64) {
 			}
 			continue
 		}
-		half := dual{v: r / 2}
+		half := dual[g2]{v: r / 2}
 		half.d[0] = 0.5
-		q := dual{v: s / 4}
+		q := dual[g2]{v: s / 4}
 		q.d[1] = 0.25
-		v := spinVars{ra: half, rb: half, saa: q, sab: q, sbb: q}
-		out := f.eval(&v)
+		v := spinVars[g2]{ra: half, rb: half, saa: q, sab: q, sbb: q}
+		out := f.eval2(&v)
 		e[i], vrho[i] = out.v, out.d[0]
 		if f.gga {
 			vsigma[i] = out.d[1]
@@ -163,20 +198,20 @@ func (f *Functional) EvalPolarized(rho, sigma, e, vrho, vsigma []float64) {
 			}
 			continue
 		}
-		var v spinVars
-		v.ra = dual{v: ra}
+		var v spinVars[g5]
+		v.ra = dual[g5]{v: ra}
 		v.ra.d[0] = 1
-		v.rb = dual{v: rb}
+		v.rb = dual[g5]{v: rb}
 		v.rb.d[1] = 1
 		if f.gga {
-			v.saa = dual{v: sigma[3*i]}
+			v.saa = dual[g5]{v: sigma[3*i]}
 			v.saa.d[2] = 1
-			v.sab = dual{v: sigma[3*i+1]}
+			v.sab = dual[g5]{v: sigma[3*i+1]}
 			v.sab.d[3] = 1
-			v.sbb = dual{v: sigma[3*i+2]}
+			v.sbb = dual[g5]{v: sigma[3*i+2]}
 			v.sbb.d[4] = 1
 		}
-		out := f.eval(&v)
+		out := f.eval5(&v)
 		e[i], vrho[2*i], vrho[2*i+1] = out.v, out.d[0], out.d[1]
 		if f.gga {
 			vsigma[3*i], vsigma[3*i+1], vsigma[3*i+2] = out.d[2], out.d[3], out.d[4]

@@ -3,8 +3,8 @@ package dft
 import "math"
 
 // spinVars are the kernel variables of one grid point as dual numbers.
-type spinVars struct {
-	ra, rb, saa, sab, sbb dual
+type spinVars[G grad] struct {
+	ra, rb, saa, sab, sbb dual[G]
 }
 
 // Guards. Densities at or below rhoFloor carry no energy; a spin channel
@@ -25,20 +25,20 @@ var (
 )
 
 // total returns ρ, and ζ clamped away from ±1.
-func (v *spinVars) total() (rho, zeta dual) {
+func total[G grad](v *spinVars[G]) (rho, zeta dual[G]) {
 	rho = add(v.ra, v.rb)
 	zeta = div(sub(v.ra, v.rb), rho)
 	if zeta.v > 1-zetaEdge {
-		zeta = konst(1 - zetaEdge)
+		zeta = konst[G](1 - zetaEdge)
 	} else if zeta.v < -1+zetaEdge {
-		zeta = konst(-1 + zetaEdge)
+		zeta = konst[G](-1 + zetaEdge)
 	}
 	return rho, zeta
 }
 
 // fzeta is the spin-interpolation function
 // f(ζ) = ((1+ζ)^{4/3} + (1−ζ)^{4/3} − 2)/(2^{4/3} − 2).
-func fzeta(z dual) dual {
+func fzeta[G grad](z dual[G]) dual[G] {
 	a := pow(addc(z, 1), 4.0/3)
 	b := pow(addc(scale(-1, z), 1), 4.0/3)
 	return scale(1/(2*cbrt2-2), addc(add(a, b), -2))
@@ -48,9 +48,9 @@ func fzeta(z dual) dual {
 
 // slaterX is the exchange of the uniform electron gas (Dirac 1930; Slater
 // 1951 with α = 2/3): e = −(3/4)(6/π)^{1/3} Σσ ρσ^{4/3}.
-func slaterX(v *spinVars) dual {
+func slaterX[G grad](v *spinVars[G]) dual[G] {
 	c := -0.75 * math.Cbrt(6/math.Pi)
-	e := konst(0)
+	e := konst[G](0)
 	if v.ra.v > spinFloor {
 		e = add(e, scale(c, pow(v.ra, 4.0/3)))
 	}
@@ -78,7 +78,7 @@ var (
 )
 
 // vwnForm is the VWN interpolation formula (their eq. 4.4) at x = √rs.
-func vwnForm(p vwnParams, x dual) dual {
+func vwnForm[G grad](p vwnParams, x dual[G]) dual[G] {
 	Q := math.Sqrt(4*p.c - p.b*p.b)
 	X := addc(add(sq(x), scale(p.b, x)), p.c)
 	X0 := p.x0*p.x0 + p.b*p.x0 + p.c
@@ -86,18 +86,18 @@ func vwnForm(p vwnParams, x dual) dual {
 	f2 := p.b * p.x0 / X0
 	f3 := 2 * (2*p.x0 + p.b) / Q
 	t1 := log(div(sq(x), X))
-	t2 := scale(f1-f2*f3, atan(div(konst(Q), addc(scale(2, x), p.b))))
+	t2 := scale(f1-f2*f3, atan(div(konst[G](Q), addc(scale(2, x), p.b))))
 	t3 := scale(-f2, log(div(sq(addc(x, -p.x0)), X)))
 	return scale(p.A, add(add(t1, t2), t3))
 }
 
-func rsOf(rho dual) dual { return scale(rsCoeff, pow(rho, -1.0/3)) }
+func rsOf[G grad](rho dual[G]) dual[G] { return scale(rsCoeff, pow(rho, -1.0/3)) }
 
 // vwn5C is VWN correlation with the Ceperley–Alder fit ("VWN5") and VWN's
 // spin interpolation through the spin stiffness:
 // ε = εP + αc f(ζ)/f”(0) (1−ζ⁴) + (εF − εP) f(ζ) ζ⁴.
-func vwn5C(v *spinVars) dual {
-	rho, z := v.total()
+func vwn5C[G grad](v *spinVars[G]) dual[G] {
+	rho, z := total(v)
 	x := sqrt(rsOf(rho))
 	P := vwnForm(vwn5Para, x)
 	F := vwnForm(vwn5Ferro, x)
@@ -113,8 +113,8 @@ func vwn5C(v *spinVars) dual {
 // interpolation between the para- and ferromagnetic limits,
 // ε = εP (1 − f(ζ)) + εF f(ζ), the form libxc's LDA_C_VWN_RPA (and so its
 // B3LYP) uses.
-func vwnRPAC(v *spinVars) dual {
-	rho, z := v.total()
+func vwnRPAC[G grad](v *spinVars[G]) dual[G] {
+	rho, z := total(v)
 	x := sqrt(rsOf(rho))
 	P := vwnForm(rpaPara, x)
 	F := vwnForm(rpaFerro, x)
@@ -137,14 +137,14 @@ var (
 )
 
 // pwG is PW92 eq. 10: G = −2A(1+α1 rs) ln(1 + 1/(2A(β1 rs^{1/2} + β2 rs + β3 rs^{3/2} + β4 rs²))).
-func pwG(p pw92Params, rs, x dual) dual {
+func pwG[G grad](p pw92Params, rs, x dual[G]) dual[G] {
 	den := add(add(scale(p.b1, x), scale(p.b2, rs)), add(scale(p.b3, mul(rs, x)), scale(p.b4, sq(rs))))
-	l := log1p(div(konst(1/(2*p.A)), den))
+	l := log1p(div(konst[G](1/(2*p.A)), den))
 	return mul(scale(-2*p.A, addc(scale(p.a1, rs), 1)), l)
 }
 
 // pw92Eps is the PW92 correlation energy per electron at (rs, ζ).
-func pw92Eps(rs, z dual) dual {
+func pw92Eps[G grad](rs, z dual[G]) dual[G] {
 	x := sqrt(rs)
 	gP := pwG(pwPara, rs, x)
 	gF := pwG(pwFerro, rs, x)
@@ -161,7 +161,7 @@ func pw92Eps(rs, z dual) dual {
 const b88Beta = 0.0042
 
 // xAsinhX returns g(s) = √s·asinh(√s) as a function of s = x², smooth at 0.
-func xAsinhX(s dual) dual {
+func xAsinhX[G grad](s dual[G]) dual[G] {
 	if s.v < 1e-8 {
 		// asinh(x)/x = 1 − x²/6 + 3x⁴/40 − …
 		return mul(s, addc(scale(-1.0/6, s), 1))
@@ -173,10 +173,10 @@ func xAsinhX(s dual) dual {
 
 // b88X is Becke 88 exchange, eq. 8 of Becke 1988 per spin channel:
 // eσ = eσ^LDA − β ρσ^{4/3} xσ² / (1 + 6β xσ asinh xσ), xσ = |∇ρσ|/ρσ^{4/3}.
-func b88X(v *spinVars) dual {
+func b88X[G grad](v *spinVars[G]) dual[G] {
 	c := -0.75 * math.Cbrt(6/math.Pi)
-	e := konst(0)
-	for _, ch := range [2][2]dual{{v.ra, v.saa}, {v.rb, v.sbb}} {
+	e := konst[G](0)
+	for _, ch := range [2][2]dual[G]{{v.ra, v.saa}, {v.rb, v.sbb}} {
 		r, s := ch[0], ch[1]
 		if r.v <= spinFloor {
 			continue
@@ -194,7 +194,7 @@ func b88X(v *spinVars) dual {
 // lypC is the correlation of C. Lee, W. Yang, R. G. Parr, Phys. Rev. B 37,
 // 785 (1988), in the form without Laplacians given by B. Miehlich, A.
 // Savin, H. Stoll, H. Preuss, Chem. Phys. Lett. 157, 200 (1989), eq. 2.
-func lypC(v *spinVars) dual {
+func lypC[G grad](v *spinVars[G]) dual[G] {
 	const a, b, c, d = 0.04918, 0.132, 0.2533, 0.349
 	cf := 0.3 * math.Pow(3*pi2, 2.0/3)
 	rho := add(v.ra, v.rb)
@@ -235,7 +235,7 @@ var (
 
 // pbeXUnpol is PBE exchange of a spin-unpolarised density ρ with gradient
 // squared σ: e = e^LDA(ρ) F(s), F = 1 + κ − κ/(1 + μs²/κ), PBE eq. 14.
-func pbeXUnpol(rho, sigma dual) dual {
+func pbeXUnpol[G grad](rho, sigma dual[G]) dual[G] {
 	c := -0.75 * math.Cbrt(3/math.Pi)
 	r43 := pow(rho, 4.0/3)
 	s2 := scale(1/(4*math.Pow(3*pi2, 2.0/3)), div(sigma, sq(r43)))
@@ -244,8 +244,8 @@ func pbeXUnpol(rho, sigma dual) dual {
 }
 
 // pbeX uses the exact spin scaling Ex[ρα,ρβ] = ½(Ex[2ρα] + Ex[2ρβ]).
-func pbeX(v *spinVars) dual {
-	e := konst(0)
+func pbeX[G grad](v *spinVars[G]) dual[G] {
+	e := konst[G](0)
 	if v.ra.v > spinFloor {
 		e = add(e, scale(0.5, pbeXUnpol(scale(2, v.ra), scale(4, v.saa))))
 	}
@@ -255,11 +255,11 @@ func pbeX(v *spinVars) dual {
 	return e
 }
 
-func expm1(a dual) dual { return chain(a, math.Expm1(a.v), math.Exp(a.v)) }
+func expm1[G grad](a dual[G]) dual[G] { return chain(a, math.Expm1(a.v), math.Exp(a.v)) }
 
 // pbeC is PBE correlation, PBE eqs. 3, 7, 8: e = ρ (ε^PW92(rs,ζ) + H(rs,ζ,t)).
-func pbeC(v *spinVars) dual {
-	rho, z := v.total()
+func pbeC[G grad](v *spinVars[G]) dual[G] {
+	rho, z := total(v)
 	rs := rsOf(rho)
 	eps := pw92Eps(rs, z)
 	phi := scale(0.5, add(pow(addc(z, 1), 2.0/3), pow(addc(scale(-1, z), 1), 2.0/3)))
@@ -268,7 +268,7 @@ func pbeC(v *spinVars) dual {
 	ks2 := scale(4/math.Pi, kf) // k_s²
 	sig := add(add(v.saa, v.sbb), scale(2, v.sab))
 	t2 := div(sig, mul(scale(4, mul(sq(phi), ks2)), sq(rho)))
-	A := div(konst(pbeBeta/pbeGamma), expm1(div(scale(-1/pbeGamma, eps), phi3)))
+	A := div(konst[G](pbeBeta/pbeGamma), expm1(div(scale(-1/pbeGamma, eps), phi3)))
 	At2 := mul(A, t2)
 	frac := div(mul(t2, addc(At2, 1)), addc(add(At2, sq(At2)), 1))
 	H := mul(scale(pbeGamma, phi3), log1p(scale(pbeBeta/pbeGamma, frac)))
