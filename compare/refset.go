@@ -210,6 +210,9 @@ func LoadRefSet(arg string) (*RefSet, error) {
 			return Builtin(b)
 		}
 	}
+	if _, err := os.Stat(arg); err != nil && !strings.ContainsAny(arg, `/\`) && !strings.HasSuffix(n, ".json") {
+		return nil, fmt.Errorf("reference set %q is neither a built-in set (builtin, %s) nor a file", arg, strings.Join(BuiltinNames(), ", "))
+	}
 	return ReadRefSet(arg)
 }
 

@@ -65,7 +65,7 @@ func WriteText(w io.Writer, t *Table) error {
 
 	if len(t.Stats) > 0 {
 		p.rule("accuracy and precision per level and kind")
-		g := &grid{head: []string{"level", "kind", "unit", "N", "MSE", fmt.Sprintf("%.0f%% CI of MSE", 100*t.Settings.Confidence), "SD", "MAE", "RMS", "max |dev|", "at", "flagged"},
+		g := &grid{head: []string{"level", "kind", "unit", "N", "MSE", fmt.Sprintf("%.0f%% CI of MSE", 100*t.Settings.Confidence), "SD", "MAE", "RMS", "largest", "at", "flagged"},
 			right: map[int]bool{3: true, 4: true, 6: true, 7: true, 8: true, 9: true, 11: true}}
 		for _, s := range t.Stats {
 			ci := "·"
