@@ -171,9 +171,24 @@ func xAxisNumeric(r *renderer, b plotBox, ticks []float64, dec int, title rich) 
 	r.f.SetLineWidth(0.6)
 	r.f.Line(b.x, b.y+b.h, b.x+b.w, b.y+b.h)
 	r.f.SetLineWidth(0.5)
+	// label every k-th tick so that labels keep a gap between them
+	widest := 0.0
 	for _, t := range ticks {
+		widest = math.Max(widest, r.width(txt(tickLabel(t, dec)), plotText, false))
+	}
+	k := 1
+	if len(ticks) > 1 {
+		step := b.w / float64(len(ticks)-1)
+		for float64(k)*step < widest+6 && k < len(ticks) {
+			k++
+		}
+	}
+	for i, t := range ticks {
 		xx := b.px(t)
 		r.f.Line(xx, b.y+b.h, xx, b.y+b.h+3)
+		if i%k != 0 {
+			continue
+		}
 		lab := txt(tickLabel(t, dec))
 		lw := r.width(lab, plotText, false)
 		r.draw(xx-lw/2, b.y+b.h+5+plotText, lab, plotText, false)
@@ -281,7 +296,7 @@ func drawStrip(r *renderer, p stripPanel, x, y, w, h float64) {
 		}
 		c := palette[st%len(palette)]
 		cx := b.px(float64(i) + 0.5)
-		if len(vs) > 0 {
+		if len(vs) >= 4 { // quartiles of fewer points say nothing the points do not
 			s := append([]float64(nil), vs...)
 			sort.Float64s(s)
 			q1, q2, q3 := quantile(s, 0.25), quantile(s, 0.5), quantile(s, 0.75)
@@ -302,7 +317,7 @@ func drawStrip(r *renderer, p stripPanel, x, y, w, h float64) {
 		}
 		for k, v := range vs {
 			// deterministic spread (golden-ratio sequence), no randomness
-			j := math.Mod(float64(k)*0.6180339887498949, 1) - 0.5
+			j := math.Mod(float64(k)*0.6180339887498949+0.5, 1) - 0.5
 			hollow := i < len(p.Flag) && k < len(p.Flag[i]) && p.Flag[i][k]
 			drawMarker(r, marker(st), cx+j*band*0.62, b.py(v), 1.9, c, hollow)
 		}
@@ -341,8 +356,27 @@ func drawScatter(r *renderer, p scatterPanel, x, y, w, h float64) {
 	for _, t := range ticks {
 		tw = math.Max(tw, r.width(txt(tickLabel(t, dec)), plotText, false))
 	}
+	// legend rows below the axis title
+	type item struct {
+		s      series
+		x, row float64
+	}
+	var items []item
+	lx, row := 0.0, 0.0
+	for _, s := range p.Series {
+		iw := 14 + r.width(txt(s.Name), plotText, false) + 10
+		if lx > 0 && lx+iw > w-tw-20 {
+			lx, row = 0, row+1
+		}
+		items = append(items, item{s, lx, row})
+		lx += iw
+	}
+	legendH := 0.0
+	if len(items) > 0 {
+		legendH = (row+1)*(plotText+4) + 4
+	}
 	// square data area
-	side := math.Min(w-tw-24, h-14-32)
+	side := math.Min(w-tw-24, h-14-38-legendH)
 	b := plotBox{x: x + tw + 20, y: y + 14, w: side, h: side, x0: a, x1: bnd, y0: a, y1: bnd}
 	gridLines(r, b, ticks)
 	r.f.SetDrawColor(120, 120, 128)
@@ -358,25 +392,13 @@ func drawScatter(r *renderer, p scatterPanel, x, y, w, h float64) {
 	}
 	yAxis(r, b, ticks, dec, p.YLabel, x)
 	xAxisNumeric(r, b, ticks, dec, p.XLabel)
-	// legend inside, top left, on a white ground
-	if len(p.Series) > 0 {
-		lw := 0.0
-		for _, s := range p.Series {
-			lw = math.Max(lw, r.width(txt(s.Name), plotText, false))
-		}
-		lh := float64(len(p.Series))*(plotText+3) + 5
-		lx, ly := b.x+5, b.y+5
-		r.f.SetFillColor(255, 255, 255)
-		r.f.SetDrawColor(200, 200, 206)
-		r.f.SetLineWidth(0.4)
-		r.f.Rect(lx, ly, lw+22, lh, "FD")
-		for i, s := range p.Series {
-			yy := ly + 4 + float64(i)*(plotText+3) + plotText/2
-			drawMarker(r, marker(s.Style), lx+8, yy, 1.9, palette[s.Style%len(palette)], false)
-			r.color(ink)
-			r.draw(lx+15, yy+plotText*0.35, txt(s.Name), plotText, false)
-		}
-		r.f.SetFillColor(255, 255, 255)
+	ly := b.y + b.h + 9 + plotText + plotLabel + 17
+	for _, it := range items {
+		yy := ly + it.row*(plotText+4)
+		x0 := b.x + it.x
+		drawMarker(r, marker(it.s.Style), x0+4, yy-plotText*0.32, 1.9, palette[it.s.Style%len(palette)], false)
+		r.color(ink)
+		r.draw(x0+11, yy, txt(it.s.Name), plotText, false)
 	}
 	r.f.SetDrawColor(ink[0], ink[1], ink[2])
 	r.f.SetLineWidth(0.6)

@@ -51,6 +51,14 @@ func phrase(cs []counted) string {
 	return strings.Join(parts, "; ")
 }
 
+// countPhrase writes "1 record is …" or "n records are …".
+func countPhrase(n int, one, many string) string {
+	if n == 1 {
+		return "1 " + one
+	}
+	return fmt.Sprintf("%d %s", n, many)
+}
+
 func plural(n int) string {
 	if n == 1 {
 		return ""
@@ -287,7 +295,7 @@ func (b *builder) details() {
 	nOpt := count(func(r archive.Record) bool { return r.Input.Task == "optimize" })
 	nSP := len(recs) - nOpt
 	if nSP > 0 {
-		pg = append(pg, fmt.Sprintf("%d record%s are single-point calculations at the geometry given as input, used as given (no re-centring or re-orientation)", nSP, plural(nSP)))
+		pg = append(pg, fmt.Sprintf("%s at the geometry given as input, used as given (no re-centring or re-orientation)", countPhrase(nSP, "record is a single-point calculation", "records are single-point calculations")))
 	}
 	if nOpt > 0 {
 		opts := collect(func(r archive.Record) (string, bool) {
@@ -302,7 +310,7 @@ func (b *builder) details() {
 			}
 			return s, true
 		})
-		s := fmt.Sprintf("%d record%s are geometry optimisations", nOpt, plural(nOpt))
+		s := countPhrase(nOpt, "record is a geometry optimisation", "records are geometry optimisations")
 		if len(opts) > 0 {
 			s += ", " + phrase(opts)
 		}

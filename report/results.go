@@ -195,7 +195,7 @@ func (b *builder) kindSection(kind, number string) {
 		sc.Series = append(sc.Series, s)
 	}
 	panels := []panel{strip}
-	capt := fmt.Sprintf("%s. (a) Signed deviations Δ%s = computed − reference at each level (%s): points are the entries (hollow where a caution applies), the box spans the quartiles with the median as a bar, and the whiskers reach the extremes.",
+	capt := fmt.Sprintf("%s. (a) Signed deviations Δ%s = computed − reference at each level (%s): points are the entries (hollow where a caution applies), where a level has four or more entries, the box spans the quartiles with the median as a bar and the whiskers reach the extremes.",
 		ki.title, ki.sym, ki.devUnit)
 	if ki.scatter {
 		panels = append(panels, sc)
