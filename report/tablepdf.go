@@ -2,6 +2,7 @@ package report
 
 import (
 	"fmt"
+	"math"
 	"strings"
 )
 
@@ -31,6 +32,28 @@ func (r *renderer) measureTable(t *table, size float64) measured {
 	for j := 0; j < n; j++ {
 		ms.m[j].w = r.width(t.Head[j], size, true)
 	}
+	// A wrapping column is at least as wide as its longest word (up to
+	// 1.5 times its set width), so that words break only when they must.
+	wrapW := make([]float64, n)
+	for j := 0; j < n && j < len(t.Wrap); j++ {
+		if t.Wrap[j] <= 0 {
+			continue
+		}
+		wrapW[j] = t.Wrap[j]
+		for _, rw := range t.Rows {
+			if j >= len(rw.Cells) {
+				continue
+			}
+			for _, ln := range rw.Cells[j].Lines {
+				if j < len(t.Mono) && t.Mono[j] {
+					ln = toMono(ln)
+				}
+				for _, w := range r.words(ln, size, false, math.Inf(1)) {
+					wrapW[j] = max(wrapW[j], min(w.w, 1.5*t.Wrap[j]))
+				}
+			}
+		}
+	}
 	ms.cells = make([][][]rich, len(t.Rows))
 	for i, rw := range t.Rows {
 		ms.cells[i] = make([][]rich, n)
@@ -40,8 +63,8 @@ func (r *renderer) measureTable(t *table, size float64) measured {
 				if j < len(t.Mono) && t.Mono[j] {
 					ln = toMono(ln)
 				}
-				if j < len(t.Wrap) && t.Wrap[j] > 0 {
-					for _, wl := range r.lines(ln, size, false, t.Wrap[j]) {
+				if wrapW[j] > 0 {
+					for _, wl := range r.lines(ln, size, false, wrapW[j]) {
 						lines = append(lines, joinWords(wl))
 					}
 					continue
