@@ -57,8 +57,13 @@ const (
 type Options struct {
 	// FrozenCore freezes the chemical core (molecule.CoreOrbitals orbitals per spin).
 	FrozenCore bool
-	// Relaxed computes the orbital-relaxed MP2 density.
+	// Relaxed computes the orbital-relaxed density of the energy
+	// E(SCF) + SameSpinScale·E_ss + OppositeSpinScale·E_os.
 	Relaxed bool
+	// SameSpinScale and OppositeSpinScale select the energy the relaxed
+	// density belongs to; both zero means MP2 (1, 1). Use SCSSameSpin,
+	// SCSOppositeSpin for SCS-MP2. The energies in Result are unscaled.
+	SameSpinScale, OppositeSpinScale float64
 	// ZVectorTol is the largest residual element accepted in the Z-vector
 	// equations (default 1e-9); ZVectorMaxIter bounds the iterations (default 100).
 	ZVectorTol     float64
@@ -81,8 +86,9 @@ type Result struct {
 	SameSpinHartree, OppositeSpinHartree float64
 	// CorrelationHartree = SameSpin + OppositeSpin.
 	CorrelationHartree float64
-	// RelaxedDa, RelaxedDb are the orbital-relaxed MP2 densities (SCF density
-	// plus the MP2 correction, AO basis); nil unless Options.Relaxed.
+	// RelaxedDa, RelaxedDb are the orbital-relaxed densities (SCF density
+	// plus the correction, AO basis) of the energy selected by the scales;
+	// nil unless Options.Relaxed.
 	RelaxedDa, RelaxedDb *mat.SymDense
 	// ZVectorIterations and ZVectorResidual describe the Z-vector solution.
 	ZVectorIterations int
@@ -137,6 +143,10 @@ func Run(mol *molecule.Molecule, mb *basis.Molecular, ref *scf.Result, opt Optio
 		threads:    opt.Threads,
 		memory:     opt.MemoryBudgetBytes,
 		schwarz:    ref.ERI.Threshold(),
+		scale:      [2]float64{opt.SameSpinScale, opt.OppositeSpinScale},
+	}
+	if opt.SameSpinScale == 0 && opt.OppositeSpinScale == 0 {
+		p.scale = [2]float64{1, 1}
 	}
 	p.spin[0] = spinRef{C: ref.Ca, eps: ref.Ea, nocc: ref.NAlpha}
 	p.spin[1] = spinRef{C: ref.Cb, eps: ref.Eb, nocc: ref.NBeta}

@@ -92,25 +92,28 @@ func (p *problem) pairTerms(rho, j, pStart, nP int, bj []float64, scr *scratch) 
 	if !p.relaxed {
 		return a
 	}
+	// Every term below is linear in the (scaled) energy functional: the
+	// same-spin pieces carry css, the opposite-spin pieces cos.
+	css, cos := p.scale[0], p.scale[1]
 	tsM := gen(v0, na[0]*v0, ts)
 	toM := gen(v0, na[1]*v1, to)
 	// P_vv (target ρ): ½ Ts Tsᵀ + To Toᵀ over (k, b).
-	gemm(blas.NoTrans, blas.Trans, 0.5, tsM, tsM, 0, gen(v0, v0, a.pvv[0]))
-	gemm(blas.NoTrans, blas.Trans, 1, toM, toM, 1, gen(v0, v0, a.pvv[0]))
+	gemm(blas.NoTrans, blas.Trans, 0.5*css, tsM, tsM, 0, gen(v0, v0, a.pvv[0]))
+	gemm(blas.NoTrans, blas.Trans, cos, toM, toM, 1, gen(v0, v0, a.pvv[0]))
 	// P_oo: −½ Σ_{c,b} Ts[c][i][b] Ts[c][k][b] (target ρ); −Σ To[c][i][b] To[c][k][b] (other spin).
 	for c := 0; c < v0; c++ {
 		tc := gen(na[0], v0, ts[c*na[0]*v0:])
-		gemm(blas.NoTrans, blas.Trans, -0.5, tc, tc, 1, gen(na[0], na[0], a.poo[0]))
+		gemm(blas.NoTrans, blas.Trans, -0.5*css, tc, tc, 1, gen(na[0], na[0], a.poo[0]))
 		oc := gen(na[1], v1, to[c*na[1]*v1:])
-		gemm(blas.NoTrans, blas.Trans, -1, oc, oc, 1, gen(na[1], na[1], a.poo[1]))
+		gemm(blas.NoTrans, blas.Trans, -cos, oc, oc, 1, gen(na[1], na[1], a.poo[1]))
 	}
 	// Term 1: Q[c][i][σ] = Σ_b T[c][i][b] C_v[σ][b]; Z[i][λ] += 2 Σ_c Q_c M_c.
 	cv0 := sub(p.spin[sp[0]].C, p.spin[sp[0]].nocc, p.nmo(sp[0]))
 	cv1 := sub(p.spin[sp[1]].C, p.spin[sp[1]].nocc, p.nmo(sp[1]))
 	q0 := make([]float64, v0*na[0]*n)
 	q1 := make([]float64, v0*na[1]*n)
-	gemm(blas.NoTrans, blas.Trans, 1, gen(v0*na[0], v0, ts), cv0, 0, gen(v0*na[0], n, q0))
-	gemm(blas.NoTrans, blas.Trans, 1, gen(v0*na[1], v1, to), cv1, 0, gen(v0*na[1], n, q1))
+	gemm(blas.NoTrans, blas.Trans, css, gen(v0*na[0], v0, ts), cv0, 0, gen(v0*na[0], n, q0))
+	gemm(blas.NoTrans, blas.Trans, cos, gen(v0*na[1], v1, to), cv1, 0, gen(v0*na[1], n, q1))
 	for c := 0; c < v0; c++ {
 		unpack(bj[(cOff+c)*npair:(cOff+c+1)*npair], n, m)
 		mm := gen(n, n, m)
@@ -118,7 +121,7 @@ func (p *problem) pairTerms(rho, j, pStart, nP int, bj []float64, scr *scratch) 
 		gemm(blas.NoTrans, blas.NoTrans, 2, gen(na[1], n, q1[c*na[1]*n:]), mm, 1, gen(na[1], n, a.z[1]))
 	}
 	// Term 2 (target ρ): L2[a][i] = −2 Σ_{k,b} (Ts[a][k][b] (j i|k b) + To[a][k][b] (j i|k b)), i all occupied.
-	gemm(blas.NoTrans, blas.Trans, -2, tsM, gen(or, na[0]*v0, I[0]), 0, gen(v0, or, a.l2[0]))
-	gemm(blas.NoTrans, blas.Trans, -2, toM, gen(or, na[1]*v1, I[1]), 1, gen(v0, or, a.l2[0]))
+	gemm(blas.NoTrans, blas.Trans, -2*css, tsM, gen(or, na[0]*v0, I[0]), 0, gen(v0, or, a.l2[0]))
+	gemm(blas.NoTrans, blas.Trans, -2*cos, toM, gen(or, na[1]*v1, I[1]), 1, gen(v0, or, a.l2[0]))
 	return a
 }

@@ -38,36 +38,46 @@ func dipoleOf(mol *molecule.Molecule, mb *basis.Molecular, Da, Db *mat.SymDense,
 }
 
 // TestRelaxedMatchesFiniteField: the analytic relaxed dipole is the field
-// derivative of the MP2 energy (internal consistency, no outside value).
+// derivative of the MP2 (or SCS-MP2) energy (internal consistency, no outside value).
 func TestRelaxedMatchesFiniteField(t *testing.T) {
 	cases := []struct {
 		name   string
 		ref    string
 		frozen bool
 		mol    func(testing.TB) (*molecule.Molecule, *basis.Molecular)
+		scs    bool
 	}{
-		{"water rhf", "rhf", false, waterSTO3G},
-		{"water rhf fc", "rhf", true, waterSTO3G},
-		{"water uhf fc", "uhf", true, waterSTO3G},
+		{"water rhf scs", "rhf", true, waterSTO3G, true},
+		{"water cation uhf scs", "uhf", false, func(tb testing.TB) (*molecule.Molecule, *basis.Molecular) {
+			return build(tb, "6-31g", true, 1, 2, molecule.MustAtom("O", 0, -0.143225816552, 0.05),
+				molecule.MustAtom("H", 1.638036840407, 1.136548822547, 0), molecule.MustAtom("H", -1.538036840407, 1.136548822547, 0.1))
+		}, true},
+		{"water rhf", "rhf", false, waterSTO3G, false},
+		{"water rhf fc", "rhf", true, waterSTO3G, false},
+		{"water uhf fc", "uhf", true, waterSTO3G, false},
 		{"OH uhf", "uhf", false, func(tb testing.TB) (*molecule.Molecule, *basis.Molecular) {
 			return build(tb, "6-31g", true, 0, 2, molecule.MustAtom("O", 0.1, 0, 0), molecule.MustAtom("H", 0.3, 0.2, 1.83))
-		}},
+		}, false},
 		{"OH uhf fc", "uhf", true, func(tb testing.TB) (*molecule.Molecule, *basis.Molecular) {
 			return build(tb, "6-31g", true, 0, 2, molecule.MustAtom("O", 0.1, 0, 0), molecule.MustAtom("H", 0.3, 0.2, 1.83))
-		}},
+		}, false},
 	}
 	for _, c := range cases {
 		m, mb := c.mol(t)
 		so := scf.Options{Reference: c.ref, EnergyTolHartree: 1e-12, DensityTol: 1e-10, GradientTol: 1e-9}
 		sr := runSCF(t, m, mb, so)
-		r, err := Run(m, mb, sr, Options{Relaxed: true, FrozenCore: c.frozen})
+		ss, os := 1.0, 1.0
+		if c.scs {
+			ss, os = SCSSameSpin, SCSOppositeSpin
+		}
+		r, err := Run(m, mb, sr, Options{Relaxed: true, FrozenCore: c.frozen, SameSpinScale: ss, OppositeSpinScale: os})
 		if err != nil {
 			t.Fatal(err)
 		}
 		origin := [3]float64{}
 		got := relaxedDipole(m, mb, r, origin)
 		so.ERI = sr.ERI
-		ff, err := FiniteFieldDipole(m, mb, so, Options{FrozenCore: c.frozen}, 1, 1, 1e-3, origin)
+		ff, err := FiniteFieldDipole(m, mb, so, Options{FrozenCore: c.frozen}, ss, os, 1e-3, origin)
 		if err != nil {
 			t.Fatal(err)
 		}

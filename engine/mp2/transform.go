@@ -45,6 +45,9 @@ type problem struct {
 	threads    int
 	memory     int64
 	schwarz    float64
+	// scale weights the same-spin [0] and opposite-spin [1] parts of the
+	// energy whose relaxed density is wanted (1, 1 for MP2).
+	scale [2]float64
 }
 
 // accum holds the contributions of one batch spin ρ: index 0 goes to
