@@ -50,6 +50,9 @@ func fzeta[G grad](z dual[G]) dual[G] {
 // 1951 with α = 2/3): e = −(3/4)(6/π)^{1/3} Σσ ρσ^{4/3}.
 func slaterX[G grad](v *spinVars[G]) dual[G] {
 	c := -0.75 * math.Cbrt(6/math.Pi)
+	if v.ra == v.rb { // identical channels (unpolarised evaluation)
+		return scale(2*c, pow(v.ra, 4.0/3))
+	}
 	e := konst[G](0)
 	if v.ra.v > spinFloor {
 		e = add(e, scale(c, pow(v.ra, 4.0/3)))
@@ -100,6 +103,11 @@ func vwn5C[G grad](v *spinVars[G]) dual[G] {
 	rho, z := total(v)
 	x := sqrt(rsOf(rho))
 	P := vwnForm(vwn5Para, x)
+	if z.v == 0 {
+		// f(0) = f'(0) = 0 and ζ⁴ has no first derivative at 0: only εP
+		// contributes to the energy and its first derivatives
+		return mul(rho, P)
+	}
 	F := vwnForm(vwn5Ferro, x)
 	S := vwnForm(vwn5Stiff, x)
 	fz := fzeta(z)
@@ -117,6 +125,9 @@ func vwnRPAC[G grad](v *spinVars[G]) dual[G] {
 	rho, z := total(v)
 	x := sqrt(rsOf(rho))
 	P := vwnForm(rpaPara, x)
+	if z.v == 0 { // see vwn5C
+		return mul(rho, P)
+	}
 	F := vwnForm(rpaFerro, x)
 	fz := fzeta(z)
 	return mul(rho, add(P, mul(sub(F, P), fz)))
@@ -147,6 +158,9 @@ func pwG[G grad](p pw92Params, rs, x dual[G]) dual[G] {
 func pw92Eps[G grad](rs, z dual[G]) dual[G] {
 	x := sqrt(rs)
 	gP := pwG(pwPara, rs, x)
+	if z.v == 0 { // f(0) = f'(0) = 0, as in vwn5C
+		return gP
+	}
 	gF := pwG(pwFerro, rs, x)
 	gA := pwG(pwAlpha, rs, x) // = −αc
 	fz := fzeta(z)
@@ -176,7 +190,12 @@ func xAsinhX[G grad](s dual[G]) dual[G] {
 func b88X[G grad](v *spinVars[G]) dual[G] {
 	c := -0.75 * math.Cbrt(6/math.Pi)
 	e := konst[G](0)
-	for _, ch := range [2][2]dual[G]{{v.ra, v.saa}, {v.rb, v.sbb}} {
+	chans := [2][2]dual[G]{{v.ra, v.saa}, {v.rb, v.sbb}}
+	n := 2
+	if chans[0] == chans[1] { // identical channels (unpolarised evaluation)
+		n = 1
+	}
+	for _, ch := range chans[:n] {
 		r, s := ch[0], ch[1]
 		if r.v <= spinFloor {
 			continue
@@ -185,6 +204,9 @@ func b88X[G grad](v *spinVars[G]) dual[G] {
 		x2 := div(s, sq(r43))
 		g := div(scale(b88Beta, x2), addc(scale(6*b88Beta, xAsinhX(x2)), 1))
 		e = add(e, mul(r43, addc(scale(-1, g), c)))
+	}
+	if n == 1 {
+		e = scale(2, e)
 	}
 	return e
 }
@@ -245,6 +267,9 @@ func pbeXUnpol[G grad](rho, sigma dual[G]) dual[G] {
 
 // pbeX uses the exact spin scaling Ex[ρα,ρβ] = ½(Ex[2ρα] + Ex[2ρβ]).
 func pbeX[G grad](v *spinVars[G]) dual[G] {
+	if v.ra == v.rb && v.saa == v.sbb && v.ra.v > spinFloor {
+		return pbeXUnpol(scale(2, v.ra), scale(4, v.saa))
+	}
 	e := konst[G](0)
 	if v.ra.v > spinFloor {
 		e = add(e, scale(0.5, pbeXUnpol(scale(2, v.ra), scale(4, v.saa))))
@@ -262,7 +287,10 @@ func pbeC[G grad](v *spinVars[G]) dual[G] {
 	rho, z := total(v)
 	rs := rsOf(rho)
 	eps := pw92Eps(rs, z)
-	phi := scale(0.5, add(pow(addc(z, 1), 2.0/3), pow(addc(scale(-1, z), 1), 2.0/3)))
+	phi := konst[G](1) // φ(0) = 1, φ'(0) = 0
+	if z.v != 0 {
+		phi = scale(0.5, add(pow(addc(z, 1), 2.0/3), pow(addc(scale(-1, z), 1), 2.0/3)))
+	}
 	phi3 := mul(phi, sq(phi))
 	kf := cbrt(scale(3*pi2, rho))
 	ks2 := scale(4/math.Pi, kf) // k_s²

@@ -15,7 +15,7 @@ var levels = []GridSpec{
 	{Level: "coarse", RadialScheme: "treutler-m4", RadialPoints: 50, AngularOrder: 23, Partition: "becke-size-adjusted", Pruning: "zones", DensityCut: 1e-12, BasisCut: 1e-10},
 	{Level: "standard", RadialScheme: "treutler-m4", RadialPoints: 75, AngularOrder: 35, Partition: "becke-size-adjusted", Pruning: "zones", DensityCut: 1e-14, BasisCut: 1e-12},
 	{Level: "fine", RadialScheme: "treutler-m4", RadialPoints: 99, AngularOrder: 47, Partition: "becke-size-adjusted", Pruning: "zones", DensityCut: 1e-14, BasisCut: 1e-13},
-	{Level: "reference", RadialScheme: "treutler-m4", RadialPoints: 120, AngularOrder: 59, Partition: "becke-size-adjusted", Pruning: "zones", DensityCut: 1e-15, BasisCut: 1e-14},
+	{Level: "reference", RadialScheme: "treutler-m4", RadialPoints: 110, AngularOrder: 53, Partition: "becke-size-adjusted", Pruning: "zones", DensityCut: 1e-15, BasisCut: 1e-14},
 }
 
 // Level returns the full specification of a named grid level ("" = the

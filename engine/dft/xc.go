@@ -5,8 +5,7 @@ import (
 	"math"
 	"sync"
 
-	"gonum.org/v1/gonum/blas"
-	"gonum.org/v1/gonum/blas/blas64"
+	"gonum.org/v1/gonum/floats"
 	"gonum.org/v1/gonum/mat"
 
 	"moltrail/engine/basis"
@@ -237,10 +236,6 @@ func (x *XC) newWork(restricted bool) *work {
 	return w
 }
 
-func general(r, c int, d []float64) blas64.General {
-	return blas64.General{Rows: r, Cols: c, Stride: c, Data: d[:r*c]}
-}
-
 // density computes X = Φ·D_loc and ρ_p = Σ X∘Φ, ∇ρ_p = 2 Σ X∘∇Φ.
 func (x *XC) density(d []float64, funcs []int, np, nl int, w *work, X []float64, rho []float64, rstride int, grho [3][]float64) {
 	n := x.nbf
@@ -249,7 +244,18 @@ func (x *XC) density(d []float64, funcs []int, np, nl int, w *work, X []float64,
 			w.dloc[i*nl+j] = d[fi*n+fj]
 		}
 	}
-	blas64.Gemm(blas.NoTrans, blas.NoTrans, 1, general(np, nl, w.phi), general(nl, nl, w.dloc), 0, general(np, nl, X))
+	// X = Φ·D_loc, row by row (serial: the workers already use all cores)
+	for p := 0; p < np; p++ {
+		xr := X[p*nl : (p+1)*nl]
+		for k := range xr {
+			xr[k] = 0
+		}
+		for k, f := range w.phi[p*nl : (p+1)*nl] {
+			if f != 0 {
+				floats.AddScaled(xr, f, w.dloc[k*nl:(k+1)*nl])
+			}
+		}
+	}
 	for p := 0; p < np; p++ {
 		row := X[p*nl : (p+1)*nl]
 		ph := w.phi[p*nl : (p+1)*nl]
@@ -292,7 +298,19 @@ func (x *XC) potential(funcs []int, np, nl int, wts, vr []float64, vrStride int,
 			z[k] = a*ph[k] + gx*px[k] + gy*py[k] + gz*pz[k]
 		}
 	}
-	blas64.Gemm(blas.Trans, blas.NoTrans, 1, general(np, nl, work.phi), general(np, nl, Z), 0, general(nl, nl, work.vloc))
+	// vloc = Φᵀ Z, accumulated point by point (serial, fixed order)
+	vl := work.vloc[:nl*nl]
+	for k := range vl {
+		vl[k] = 0
+	}
+	for p := 0; p < np; p++ {
+		z := Z[p*nl : (p+1)*nl]
+		for k, f := range work.phi[p*nl : (p+1)*nl] {
+			if f != 0 {
+				floats.AddScaled(vl[k*nl:(k+1)*nl], f, z)
+			}
+		}
+	}
 	n := x.nbf
 	for i, fi := range funcs {
 		for j, fj := range funcs {
