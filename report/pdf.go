@@ -60,6 +60,10 @@ type tocEntry struct {
 	Page   int
 }
 
+// compressStreams is always true in use; tests turn it off to read the
+// page streams.
+var compressStreams = true
+
 // renderPDF lays the document out twice: the first pass counts pages and
 // finds the page of every heading, the second prints "page X of Y" and the
 // contents list with those numbers. Nothing in the output depends on the
@@ -87,7 +91,7 @@ func renderPDF(d *document, w io.Writer, created time.Time) error {
 func layout(d *document, total int, prev []tocEntry, created time.Time) (*renderer, error) {
 	f := gofpdf.New("P", "pt", "A4", "")
 	f.SetCatalogSort(true)
-	f.SetCompression(true)
+	f.SetCompression(compressStreams)
 	f.SetCreationDate(created)
 	f.SetModificationDate(created)
 	f.SetAutoPageBreak(false, 0)
@@ -396,6 +400,14 @@ func (r *renderer) titlePage() {
 			// First pass: reserve the same room the contents will take.
 			entries = contentsOf(d)
 		}
+		numW := map[int]float64{}
+		for _, e := range entries {
+			size := bodySize
+			if e.Level == 2 {
+				size = bodySize - 0.5
+			}
+			numW[e.Level] = max(numW[e.Level], r.width(txt(e.Number), size, e.Level == 1))
+		}
 		for _, e := range entries {
 			if e.Level > 2 {
 				continue
@@ -410,8 +422,8 @@ func (r *renderer) titlePage() {
 			r.ensure(bodyLead)
 			base := r.y + size*0.95
 			x := r.l + indent
-			x += r.draw(x, base, txt(e.Number), size, boldBase)
-			x += 8
+			r.draw(x, base, txt(e.Number), size, boldBase)
+			x += numW[e.Level] + 8
 			x += r.draw(x, base, e.Text, size, boldBase)
 			pg := fmt.Sprint(e.Page)
 			if r.total == 0 {

@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"encoding/csv"
 	"fmt"
+	"math"
 	"math/rand/v2"
 	"os"
 	"os/exec"
@@ -60,7 +61,7 @@ func TestPDFContent(t *testing.T) {
 	for _, want := range []string{
 		// section titles
 		"Computational details", "Results", "Bond lengths", "Bond angles", "Dipole moments", "Quadrupole moments",
-		"Statistics", "Cautions", "Kinds of caution", "Flagged entries", "Appendix A: Structures", "Appendix B: Provenance", "References", "Contents",
+		"Statistics", "Cautions", "Kinds of caution", "Flagged entries", "Appendix A", "Structures", "Appendix B", "Provenance", "References", "Contents",
 		// title page
 		testOpts.Title, testOpts.Author, testOpts.Affiliation, testOpts.Date, "HF/cc-pVDZ", "MP2(fc)/cc-pVDZ", "B3LYP/aug-cc-pVDZ",
 		// symbols
@@ -259,6 +260,21 @@ func TestBadInput(t *testing.T) {
 	noID[0].ID = ""
 	if err := CSV(&buf, tbl, noID, testOpts); err == nil {
 		t.Errorf("a record without id was accepted")
+	}
+	// values that are not numbers are printed as "—" and left out of the plots
+	bad := *tbl
+	bad.Deviations = append([]compare.Deviation(nil), tbl.Deviations...)
+	bad.Deviations[0].Computed = math.NaN()
+	bad.Deviations[0].Signed = math.Inf(1)
+	buf.Reset()
+	compressStreams = false
+	err := PDF(&buf, &bad, recs, testOpts)
+	compressStreams = true
+	if err != nil {
+		t.Errorf("non-finite deviation: %v", err)
+	}
+	if bytes.Contains(buf.Bytes(), []byte("NaN")) || bytes.Contains(buf.Bytes(), []byte("Inf ")) || bytes.Contains(buf.Bytes(), []byte("Inf.")) {
+		t.Errorf("a non-finite number reached the PDF page streams")
 	}
 	// an empty comparison still makes a document
 	if err := PDF(&buf, &compare.Table{}, nil, Options{}); err != nil {

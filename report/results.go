@@ -181,7 +181,7 @@ func (b *builder) kindSection(kind, number string) {
 		var flags []bool
 		s := series{Name: l, Style: style[l]}
 		for _, r := range rows {
-			if d, ok := r.byLevel[l]; ok {
+			if d, ok := r.byLevel[l]; ok && finite(d.Signed, d.Reference, d.Computed) {
 				vals = append(vals, d.Signed)
 				flags = append(flags, len(d.Cautions) > 0)
 				s.X = append(s.X, d.Reference*ki.valScale)
@@ -390,4 +390,14 @@ func (b *builder) statistics(number string) {
 		prev = x.Kind
 	}
 	b.add(ld)
+}
+
+// finite reports whether every value is a finite number (plots skip others).
+func finite(vs ...float64) bool {
+	for _, v := range vs {
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			return false
+		}
+	}
+	return true
 }
