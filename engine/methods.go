@@ -151,20 +151,14 @@ func NewJob(r Request) (*Job, error) {
 		}
 		rp := r.RelaxedProps
 		if rp == "" {
-			// The analytic relaxed density is that of unscaled MP2; spin-scaled
-			// variants differentiate their own energy in finite fields.
+			// The analytic relaxed density (Z-vector) of the level's own
+			// (spin-scaled) energy: dipole and quadrupole in one pass.
 			rp = "z-vector"
-			if info.SameSpin != 1 || info.OppositeSpin != 1 {
-				rp = "finite-field"
-			}
 		}
 		switch rp {
 		case "z-vector", "finite-field", "none":
 		default:
 			return nil, fmt.Errorf("relaxed-properties route %q is not known (z-vector, finite-field, none)", rp)
-		}
-		if rp == "z-vector" && (info.SameSpin != 1 || info.OppositeSpin != 1) {
-			return nil, fmt.Errorf("the analytic relaxed density is available for unscaled MP2 only; use finite-field for %s", method)
 		}
 		j.Correlation = &CorrelationSettings{FrozenCore: r.FrozenCore, RelaxedProperties: rp}
 		if rp == "finite-field" {

@@ -24,7 +24,7 @@ func correlate(job *Job, mol *molecule.Molecule, mb *basis.Molecular, sr *scf.Re
 	cs := job.Correlation
 	relaxed := withProps && cs.RelaxedProperties == "z-vector"
 	o.logf("  %s: transforming integrals (%d basis functions)\n", job.Method, mb.NBasis)
-	r, err := mp2.Run(mol, mb, sr, mp2.Options{FrozenCore: cs.FrozenCore, Relaxed: relaxed, Threads: o.threads()})
+	r, err := mp2.Run(mol, mb, sr, mp2.Options{FrozenCore: cs.FrozenCore, Relaxed: relaxed, SameSpinScale: info.SameSpin, OppositeSpinScale: info.OppositeSpin, Threads: o.threads()})
 	if err != nil {
 		return err
 	}

@@ -90,3 +90,24 @@ func TestFiniteDifferenceGradient(t *testing.T) {
 		t.Errorf("e %v g %v", e, g)
 	}
 }
+
+func TestInternalFiniteDifferenceGradient(t *testing.T) {
+	md := model{bonds: [][2]int{{0, 1}, {0, 2}}, r0: 1.81, bends: [][3]int{{1, 0, 2}}, theta0: 104.5 * math.Pi / 180}
+	x := []float64{0, 0, 0.1, 0, 1.6, -1.0, 0.1, -1.5, -0.9}
+	_, full, _ := FiniteDifferenceGradient(md.energy, 1e-4, 2)(x)
+	_, in, err := InternalFiniteDifferenceGradient(md.energy, 1e-4, 2)(x)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for i := range full {
+		if math.Abs(full[i]-in[i]) > 1e-8 {
+			t.Errorf("component %d: full %g internal %g", i, full[i], in[i])
+		}
+	}
+	if n := len(internalDirections(x)); n != 3 {
+		t.Errorf("bent triatomic has %d internal directions, want 3", n)
+	}
+	if n := len(internalDirections([]float64{0, 0, 0, 0, 0, 2})); n != 1 {
+		t.Errorf("diatomic has %d internal directions, want 1", n)
+	}
+}
