@@ -2,6 +2,7 @@ package integral
 
 import (
 	"math"
+	"syscall"
 	"testing"
 
 	"gonum.org/v1/gonum/mat"
@@ -46,10 +47,22 @@ func testDensity(mb *basis.Molecular) *mat.SymDense {
 	return D
 }
 
+// cpuSeconds is the process's user+system CPU time: on a shared, loaded
+// machine it measures the work better than wall time.
+func cpuSeconds() float64 {
+	var ru syscall.Rusage
+	if err := syscall.Getrusage(syscall.RUSAGE_SELF, &ru); err != nil {
+		return math.NaN()
+	}
+	return float64(ru.Utime.Nano()+ru.Stime.Nano()) * 1e-9
+}
+
 func benchJK(b *testing.B, name string, atoms []molecule.Atom, threads int, budget int64) {
 	mb, _ := buildBasis(b, name, "", atoms...)
 	D := testDensity(mb)
 	b.ResetTimer()
+	c0 := cpuSeconds()
+	defer func() { b.ReportMetric((cpuSeconds()-c0)/float64(b.N), "cpu-s/op") }()
 	for it := 0; it < b.N; it++ {
 		eri, err := NewERI(mb, Options{Threads: threads, MemoryBudgetBytes: budget})
 		if err != nil {
@@ -77,6 +90,8 @@ func benchReplay(b *testing.B, threads int) {
 	}
 	eri.JK([]*mat.SymDense{D}, true)
 	b.ResetTimer()
+	c0 := cpuSeconds()
+	defer func() { b.ReportMetric((cpuSeconds()-c0)/float64(b.N), "cpu-s/op") }()
 	for it := 0; it < b.N; it++ {
 		eri.JK([]*mat.SymDense{D}, true)
 	}

@@ -46,53 +46,75 @@ type Options struct {
 	MemoryBudgetBytes int64
 }
 
-// pairData is the precomputed Gaussian-product data of shell pair (i, j),
-// i ≥ j, over its surviving primitive pairs.
+// group is a set of shells on one centre with the same angular momentum,
+// representation and exponents (a general contraction, e.g. 1s and 2s of
+// a correlation-consistent set): their primitive integrals are made once.
+// A group acts as one "super-shell" whose functions are (member, function).
+type group struct {
+	l       int
+	nf      int // functions per member shell
+	members []int
+	coefs   [][]float64
+	funcs   []int32 // global function index of (member, function), member-major
+	shell   *basis.Shell
+}
+
+// pairData is the precomputed Gaussian-product data of group pair (I, J),
+// I ≥ J, over its surviving primitive pairs.
 type pairData struct {
-	i, j     int
+	I, J     int
 	la, lb   int
-	nfa, nfb int
-	nf, nh   int // nf = nfa·nfb final function pairs; nh = nHerm(la+lb)
+	nfa, nfb int // functions per member shell
+	nf, nh   int // nf = nfa·nfb; nh = nHerm(la+lb)
+	nma, nmb int // members
+	nm       int // member combinations nma·nmb
+	ntot     int // nm·nf pair functions, index (ma·nmb+mb)·nf + fa·nfb + fb
 	np       int // surviving primitive pairs
 	p        []float64
 	px       []float64 // P, 3 per primitive pair
-	kp       []float64 // c_a c_b exp(−μ R_AB²)/p
+	kp       []float64 // exp(−μ R_AB²)/p
+	w        []float64 // w[k*nm+m]: contraction coefficient products
 	bound    []float64 // primitive Schwarz-type estimate, descending
-	// Sparse form of e: for function pair f the Hermite indices
-	// nzH[nzStart[f]:nzStart[f+1]] where some primitive has E ≠ 0;
+	// Hermite coefficients E^{ab}_{tuv} of the final function pairs
+	// (normalisation and spherical transformation included), in sparse
+	// form: for function pair f the Hermite indices
+	// nzH[nzStart[f]:nzStart[f+1]] where some primitive pair has E ≠ 0;
 	// es[k*nnz+j] the values, esK the same times (−1)^{t+u+v} (ket use).
 	nzStart []int32
 	nzH     []int32
 	nnz     int
 	es, esK []float64
 	usedH   []int32 // Hermite indices used by any function pair
-	// e[k*nf*nh + f*nh + h]: Hermite coefficients E^{ab}_{tuv} of the
-	// final function pair f = fa*nfb+fb (normalisation and spherical
-	// transformation included) for primitive pair k.
-	e []float64
+	nzPos   []int32 // position of nzH[j] in usedH
+	mu, nu  []int32 // global functions of each pair function
 }
 
 // ERI computes electron-repulsion integrals (ij|kl) over the shells of a
-// basis and contracts them with densities. It is safe for concurrent use
-// except that JK calls are serialised.
+// basis and contracts them with densities. Shell and Schwarz are safe for
+// concurrent use; JK calls are serialised.
 type ERI struct {
-	mb        *basis.Molecular
-	thr       float64
-	threads   int
-	budget    int64
-	pairs     []pairData // index i*(i+1)/2+j
-	schwarz   []float64  // per pair
-	maxL      int
-	workPool  sync.Pool
-	jkMu      sync.Mutex
-	store     *incore
-	stats     statCounters
-	maxPrimNH int
+	mb       *basis.Molecular
+	thr      float64
+	threads  int
+	budget   int64
+	groups   []group
+	shellGrp []int // group of each shell
+	shellMem []int // position of each shell in its group
+	pairs    []pairData
+	schwarzP []float64 // per group pair
+	schwarzS []float64 // per shell pair
+	maxL     int
+	maxTot   int
+	maxX     int
+	workPool sync.Pool
+	jkMu     sync.Mutex
+	store    *incore
+	stats    statCounters
 }
 
 type statCounters struct {
-	computed, schwarzSkipped, densitySkipped atomic.Int64
-	builds                                   atomic.Int64
+	computed, densitySkipped atomic.Int64
+	builds                   atomic.Int64
 }
 
 func pairIndex(i, j int) int {
@@ -100,6 +122,18 @@ func pairIndex(i, j int) int {
 		i, j = j, i
 	}
 	return i*(i+1)/2 + j
+}
+
+func sameShellShape(a, b *basis.Shell) bool {
+	if a.L != b.L || a.Pure != b.Pure || a.Centre != b.Centre || len(a.Exponents) != len(b.Exponents) {
+		return false
+	}
+	for k := range a.Exponents {
+		if a.Exponents[k] != b.Exponents[k] {
+			return false
+		}
+	}
+	return true
 }
 
 // NewERI prepares the shell-pair data and Schwarz bounds of mb.
@@ -137,22 +171,56 @@ func NewERI(mb *basis.Molecular, opt Options) (*ERI, error) {
 			e.maxL = sh.L
 		}
 	}
+	if len(mb.Offsets) != len(mb.Shells) {
+		return nil, fmt.Errorf("integral: the basis lists %d shell offsets for %d shells", len(mb.Offsets), len(mb.Shells))
+	}
 	boysOnce.Do(initBoys)
 	ns := len(mb.Shells)
-	trans := make([][]float64, ns)
+	e.shellGrp = make([]int, ns)
+	e.shellMem = make([]int, ns)
 	for i := range mb.Shells {
-		trans[i] = shellTransform(&mb.Shells[i])
-	}
-	e.pairs = make([]pairData, ns*(ns+1)/2)
-	for i := 0; i < ns; i++ {
-		for j := 0; j <= i; j++ {
-			e.pairs[pairIndex(i, j)] = makePair(mb, i, j, trans)
+		sh := &mb.Shells[i]
+		g := -1
+		for k := range e.groups {
+			if sameShellShape(e.groups[k].shell, sh) {
+				g = k
+				break
+			}
+		}
+		if g < 0 {
+			g = len(e.groups)
+			e.groups = append(e.groups, group{l: sh.L, nf: sh.NFunc(), shell: sh})
+		}
+		gr := &e.groups[g]
+		e.shellGrp[i], e.shellMem[i] = g, len(gr.members)
+		gr.members = append(gr.members, i)
+		gr.coefs = append(gr.coefs, sh.Coefs)
+		for f := 0; f < sh.NFunc(); f++ {
+			gr.funcs = append(gr.funcs, int32(mb.Offsets[i]+f))
 		}
 	}
-	e.workPool.New = func() any { return newWork(e.maxL) }
+	ng := len(e.groups)
+	trans := make([][]float64, ng)
+	for g := range e.groups {
+		trans[g] = shellTransform(e.groups[g].shell)
+	}
+	e.pairs = make([]pairData, ng*(ng+1)/2)
+	maxNm, maxNf := 1, 1
+	for I := 0; I < ng; I++ {
+		for J := 0; J <= I; J++ {
+			pd := e.makePair(I, J, trans)
+			e.pairs[pairIndex(I, J)] = pd
+			maxNm = max(maxNm, pd.nm)
+			maxNf = max(maxNf, pd.nf)
+			e.maxTot = max(e.maxTot, pd.ntot)
+		}
+	}
+	e.maxX = maxNm * nHerm(2*e.maxL) * maxNf
+	e.workPool.New = func() any { return newWork(e.maxL, e.maxTot, e.maxX) }
 	// Schwarz bounds, computed in parallel over pairs; each pair's value
 	// is independent, so the result does not depend on the schedule.
-	e.schwarz = make([]float64, len(e.pairs))
+	e.schwarzP = make([]float64, len(e.pairs))
+	e.schwarzS = make([]float64, ns*(ns+1)/2)
 	var next atomic.Int64
 	var wg sync.WaitGroup
 	for t := 0; t < e.threads; t++ {
@@ -167,13 +235,25 @@ func NewERI(mb *basis.Molecular, opt Options) (*ERI, error) {
 					return
 				}
 				pd := &e.pairs[k]
-				out := w.block(pd.nf * pd.nf)
+				out := w.out[:pd.ntot*pd.ntot]
 				e.quartet(pd, pd, w, out)
 				m := 0.0
-				for f := 0; f < pd.nf; f++ {
-					m = math.Max(m, math.Abs(out[f*pd.nf+f]))
+				gi, gj := &e.groups[pd.I], &e.groups[pd.J]
+				for ma := 0; ma < pd.nma; ma++ {
+					for mb := 0; mb < pd.nmb; mb++ {
+						ms := 0.0
+						for f := 0; f < pd.nf; f++ {
+							q := (ma*pd.nmb+mb)*pd.nf + f
+							ms = math.Max(ms, math.Abs(out[q*pd.ntot+q]))
+						}
+						// each shell pair is written by exactly one
+						// (pair, combination) up to the mirror (mb, ma)
+						// of a diagonal group pair, whose value is equal.
+						e.schwarzS[pairIndex(gi.members[ma], gj.members[mb])] = math.Sqrt(ms)
+						m = math.Max(m, ms)
+					}
 				}
-				e.schwarz[k] = math.Sqrt(m)
+				e.schwarzP[k] = math.Sqrt(m)
 			}
 		}()
 	}
@@ -181,11 +261,14 @@ func NewERI(mb *basis.Molecular, opt Options) (*ERI, error) {
 	return e, nil
 }
 
-func makePair(mb *basis.Molecular, i, j int, trans [][]float64) pairData {
-	A, B := &mb.Shells[i], &mb.Shells[j]
+func (e *ERI) makePair(I, J int, trans [][]float64) pairData {
+	gA, gB := &e.groups[I], &e.groups[J]
+	A, B := gA.shell, gB.shell
 	la, lb := A.L, B.L
-	pd := pairData{i: i, j: j, la: la, lb: lb, nfa: A.NFunc(), nfb: B.NFunc()}
+	pd := pairData{I: I, J: J, la: la, lb: lb, nfa: gA.nf, nfb: gB.nf, nma: len(gA.members), nmb: len(gB.members)}
 	pd.nf = pd.nfa * pd.nfb
+	pd.nm = pd.nma * pd.nmb
+	pd.ntot = pd.nm * pd.nf
 	pd.nh = nHerm(la + lb)
 	ca, cb := basis.CartComponents(la), basis.CartComponents(lb)
 	nca, ncb := len(ca), len(cb)
@@ -197,13 +280,20 @@ func makePair(mb *basis.Molecular, i, j int, trans [][]float64) pairData {
 	cartE := make([]float64, nca*ncb*pd.nh)
 	half := make([]float64, nca*pd.nfb*pd.nh)
 	ab2 := dist2(A.Centre, B.Centre)
-	ta, tb := trans[i], trans[j]
+	ta, tb := trans[I], trans[J]
+	var dense []float64
 	for pa, a := range A.Exponents {
 		for pb, b := range B.Exponents {
 			p := a + b
 			mu := a * b / p
-			K := A.Coefs[pa] * B.Coefs[pb] * math.Exp(-mu*ab2)
-			if math.Abs(K)*math.Pow(math.Pi/p, 1.5) < PrimitiveThreshold {
+			K := math.Exp(-mu * ab2)
+			wmax := 0.0
+			for ma := 0; ma < pd.nma; ma++ {
+				for mb := 0; mb < pd.nmb; mb++ {
+					wmax = math.Max(wmax, math.Abs(gA.coefs[ma][pa]*gB.coefs[mb][pb]))
+				}
+			}
+			if wmax*K*math.Pow(math.Pi/p, 1.5) < PrimitiveThreshold {
 				continue
 			}
 			var P [3]float64
@@ -229,7 +319,6 @@ func makePair(mb *basis.Molecular, i, j int, trans [][]float64) pairData {
 					}
 				}
 			}
-			// transform b then a
 			for k := range half {
 				half[k] = 0
 			}
@@ -248,9 +337,9 @@ func makePair(mb *basis.Molecular, i, j int, trans [][]float64) pairData {
 					}
 				}
 			}
-			off := len(pd.e)
-			pd.e = append(pd.e, make([]float64, pd.nf*pd.nh)...)
-			fin := pd.e[off:]
+			off := len(dense)
+			dense = append(dense, make([]float64, pd.nf*pd.nh)...)
+			fin := dense[off:]
 			for fa := 0; fa < pd.nfa; fa++ {
 				for ia := 0; ia < nca; ia++ {
 					c := ta[fa*nca+ia]
@@ -270,26 +359,65 @@ func makePair(mb *basis.Molecular, i, j int, trans [][]float64) pairData {
 			for _, v := range fin[:pd.nf*pd.nh] {
 				emax = math.Max(emax, math.Abs(v))
 			}
+			for ma := 0; ma < pd.nma; ma++ {
+				for mb := 0; mb < pd.nmb; mb++ {
+					pd.w = append(pd.w, gA.coefs[ma][pa]*gB.coefs[mb][pb])
+				}
+			}
 			pd.p = append(pd.p, p)
 			pd.px = append(pd.px, P[0], P[1], P[2])
 			pd.kp = append(pd.kp, K/p)
-			pd.bound = append(pd.bound, math.Abs(K/p)*math.Sqrt(twoPi52/math.Sqrt(2*p))*emax)
+			pd.bound = append(pd.bound, wmax*K/p*math.Sqrt(twoPi52/math.Sqrt(2*p))*emax)
 			pd.np++
 		}
 	}
-	sortPrims(&pd)
-	makeSparse(&pd)
+	dense = sortPrims(&pd, dense)
+	makeSparse(&pd, dense)
+	pd.mu = make([]int32, pd.ntot)
+	pd.nu = make([]int32, pd.ntot)
+	for ma := 0; ma < pd.nma; ma++ {
+		for mb := 0; mb < pd.nmb; mb++ {
+			for fa := 0; fa < pd.nfa; fa++ {
+				for fb := 0; fb < pd.nfb; fb++ {
+					q := (ma*pd.nmb+mb)*pd.nf + fa*pd.nfb + fb
+					pd.mu[q] = gA.funcs[ma*pd.nfa+fa]
+					pd.nu[q] = gB.funcs[mb*pd.nfb+fb]
+				}
+			}
+		}
+	}
 	return pd
 }
 
-func makeSparse(pd *pairData) {
+// sortPrims orders the primitive pairs by decreasing bound so that the
+// quartet loops can stop early; it returns the reordered dense E.
+func sortPrims(pd *pairData, dense []float64) []float64 {
+	ord := make([]int, pd.np)
+	for k := range ord {
+		ord[k] = k
+	}
+	sort.SliceStable(ord, func(a, b int) bool { return pd.bound[ord[a]] > pd.bound[ord[b]] })
+	n := pd.nf * pd.nh
+	nm := pd.nm
+	p, px, kp, bd, w, e := make([]float64, pd.np), make([]float64, 3*pd.np), make([]float64, pd.np), make([]float64, pd.np), make([]float64, len(pd.w)), make([]float64, len(dense))
+	for k, o := range ord {
+		p[k], kp[k], bd[k] = pd.p[o], pd.kp[o], pd.bound[o]
+		copy(px[3*k:3*k+3], pd.px[3*o:3*o+3])
+		copy(w[k*nm:(k+1)*nm], pd.w[o*nm:(o+1)*nm])
+		copy(e[k*n:(k+1)*n], dense[o*n:(o+1)*n])
+	}
+	pd.p, pd.px, pd.kp, pd.bound, pd.w = p, px, kp, bd, w
+	return e
+}
+
+func makeSparse(pd *pairData, dense []float64) {
 	used := make([]bool, pd.nh)
 	pd.nzStart = make([]int32, pd.nf+1)
 	for f := 0; f < pd.nf; f++ {
 		for h := 0; h < pd.nh; h++ {
 			nz := false
 			for k := 0; k < pd.np; k++ {
-				if pd.e[(k*pd.nf+f)*pd.nh+h] != 0 {
+				if dense[(k*pd.nf+f)*pd.nh+h] != 0 {
 					nz = true
 					break
 				}
@@ -308,56 +436,49 @@ func makeSparse(pd *pairData) {
 		for f := 0; f < pd.nf; f++ {
 			for j := pd.nzStart[f]; j < pd.nzStart[f+1]; j++ {
 				h := pd.nzH[j]
-				v := pd.e[(k*pd.nf+f)*pd.nh+int(h)]
+				v := dense[(k*pd.nf+f)*pd.nh+int(h)]
 				pd.es[k*pd.nnz+int(j)] = v
 				pd.esK[k*pd.nnz+int(j)] = v * herm.sign[h]
 			}
 		}
 	}
+	pos := make([]int32, pd.nh)
 	for h, u := range used {
 		if u {
+			pos[h] = int32(len(pd.usedH))
 			pd.usedH = append(pd.usedH, int32(h))
 		}
 	}
+	pd.nzPos = make([]int32, pd.nnz)
+	for j, h := range pd.nzH {
+		pd.nzPos[j] = pos[h]
+	}
 }
 
-// mdCost estimates the work of quartet() with A as bra and B as ket.
+// mdCost estimates the work of quartetMD with A as bra and B as ket.
 func mdCost(A, B *pairData) int {
-	return A.np*B.np*(len(A.usedH)*B.nnz+24) + A.np*A.nnz*B.nf
-}
-
-// sortPrims orders the primitive pairs by decreasing bound so that the
-// quartet loops can stop early.
-func sortPrims(pd *pairData) {
-	ord := make([]int, pd.np)
-	for k := range ord {
-		ord[k] = k
+	inner := len(A.usedH) * B.nnz
+	if B.nm > 1 {
+		inner += B.nm * len(A.usedH) * B.nf
 	}
-	sort.SliceStable(ord, func(a, b int) bool { return pd.bound[ord[a]] > pd.bound[ord[b]] })
-	n := pd.nf * pd.nh
-	p, px, kp, bd, e := make([]float64, pd.np), make([]float64, 3*pd.np), make([]float64, pd.np), make([]float64, pd.np), make([]float64, len(pd.e))
-	for k, o := range ord {
-		p[k], kp[k], bd[k] = pd.p[o], pd.kp[o], pd.bound[o]
-		copy(px[3*k:3*k+3], pd.px[3*o:3*o+3])
-		copy(e[k*n:(k+1)*n], pd.e[o*n:(o+1)*n])
-	}
-	pd.p, pd.px, pd.kp, pd.bound, pd.e = p, px, kp, bd, e
+	return A.np*B.np*(inner+24) + A.np*B.nm*(A.nnz*B.nf+A.nm*A.nf*B.nf)
 }
 
 // work is per-goroutine scratch space for quartet evaluation.
 type work struct {
 	f      []float64
 	r, tmp []float64
+	x, z   []float64
 	y      []float64
-	x      []float64
+	yb     []float64
+	xs     []float64
 	out    []float64
 	perm   []float64
 }
 
-func newWork(maxL int) *work {
+func newWork(maxL, maxTot, maxX int) *work {
 	L := 4 * maxL
 	nhq := nHerm(L)
-	nhp := nHerm(2 * maxL)
 	nfp := (2*maxL + 1) * (2*maxL + 1)
 	if c := basis.NCart(maxL); c*c > nfp {
 		nfp = c * c
@@ -366,37 +487,57 @@ func newWork(maxL int) *work {
 		f:    make([]float64, L+1),
 		r:    make([]float64, nhq),
 		tmp:  make([]float64, nhq),
-		y:    make([]float64, nhp),
-		x:    make([]float64, nhp*nfp),
-		out:  make([]float64, nfp*nfp),
-		perm: make([]float64, nfp*nfp),
+		x:    make([]float64, maxX),
+		z:    make([]float64, nHerm(2*maxL)*nfp),
+		y:    make([]float64, nfp*nfp),
+		yb:   make([]float64, nHerm(2*maxL)),
+		xs:   make([]float64, maxTot),
+		out:  make([]float64, maxTot*maxTot),
+		perm: make([]float64, maxTot*maxTot),
 	}
 }
 
 func (e *ERI) getWork() *work { return e.workPool.Get().(*work) }
 
-// block returns the work's output buffer cut to n elements.
-func (w *work) block(n int) []float64 { return w.out[:n] }
-
-// quartet writes (ab|cd) for bra pair A and ket pair B, row-major
-// [fA][fB] with fA, fB the pairs' function-pair indices, into out.
-//
-// McMurchie–Davidson: for each bra primitive pair a,
-// X[h][g] = Σ_c Σ_h' R_{h+h'}(α, P_a−Q_c)·(−1)^{|h'|}·E^c[g][h'], then
-// out[f][g] += Σ_h E^a[f][h] X[h][g], with the prefactor
-// 2π^{5/2} K_a K_c /(p q sqrt(p+q)) folded into R.
+// quartet writes (AB|CD) for group pairs A (bra) and B (ket), row-major
+// [A.ntot][B.ntot], into out.
 func (e *ERI) quartet(A, B *pairData, w *work, out []float64) {
-	nfA, nfB := A.nf, B.nf
-	for k := range out[:nfA*nfB] {
-		out[k] = 0
-	}
+	nA, nB := A.ntot, B.ntot
 	if A.np == 0 || B.np == 0 {
+		for k := range out[:nA*nB] {
+			out[k] = 0
+		}
 		return
 	}
+	if mdCost(B, A) < mdCost(A, B) {
+		perm := w.perm[:nA*nB]
+		e.quartetMD(B, A, w, perm)
+		for b := 0; b < nB; b++ {
+			for a := 0; a < nA; a++ {
+				out[a*nB+b] = perm[b*nA+a]
+			}
+		}
+		return
+	}
+	e.quartetMD(A, B, w, out)
+}
+
+// quartetMD is the McMurchie–Davidson quartet with A as bra: for each bra
+// primitive pair a,
+//
+//	X_m[h][g] = Σ_c w_c,m Σ_h' R_{h+h'}(α, P_a−Q_c) (−1)^{|h'|} E^c[g][h']
+//	out[(m_a,f)][(m,g)] += w_a,m_a Σ_h E^a[f][h] X_m[h][g]
+//
+// with the prefactor 2π^{5/2} K_a K_c /(p q sqrt(p+q)) folded into R.
+func (e *ERI) quartetMD(A, B *pairData, w *work, out []float64) {
+	nA, nB := A.ntot, B.ntot
+	for k := range out[:nA*nB] {
+		out[k] = 0
+	}
 	L := A.la + A.lb + B.la + B.lb
+	f := w.f
 	if L == 0 {
-		// (ss|ss): one function each, Hermite order 0.
-		sum := 0.0
+		xs := w.xs[:B.nm]
 		for a := 0; a < A.np; a++ {
 			ba := A.bound[a]
 			if ba*B.bound[0] < PrimitiveQuartetThreshold {
@@ -404,8 +545,9 @@ func (e *ERI) quartet(A, B *pairData, w *work, out []float64) {
 			}
 			p := A.p[a]
 			pa := A.px[3*a : 3*a+3]
-			ka := A.kp[a] * A.e[a]
-			inner := 0.0
+			for m := range xs {
+				xs[m] = 0
+			}
 			for c := 0; c < B.np; c++ {
 				if ba*B.bound[c] < PrimitiveQuartetThreshold {
 					break
@@ -414,40 +556,35 @@ func (e *ERI) quartet(A, B *pairData, w *work, out []float64) {
 				qc := B.px[3*c : 3*c+3]
 				dx, dy, dz := pa[0]-qc[0], pa[1]-qc[1], pa[2]-qc[2]
 				alpha := p * q / (p + q)
-				boys(0, alpha*(dx*dx+dy*dy+dz*dz), w.f)
-				inner += B.kp[c] * B.e[c] * w.f[0] / math.Sqrt(p+q)
+				boys(0, alpha*(dx*dx+dy*dy+dz*dz), f)
+				v := B.kp[c] * B.es[c] * f[0] / math.Sqrt(p+q)
+				wc := B.w[c*B.nm : (c+1)*B.nm]
+				for m, wm := range wc {
+					xs[m] += wm * v
+				}
 			}
-			sum += ka * inner
+			ka := twoPi52 * A.kp[a] * A.es[a]
+			wa := A.w[a*A.nm : (a+1)*A.nm]
+			for ma, wm := range wa {
+				o := out[ma*nB : (ma+1)*nB]
+				s := ka * wm
+				for m, xv := range xs {
+					o[m] += s * xv
+				}
+			}
 		}
-		out[0] = twoPi52 * sum
 		return
 	}
-	if mdCost(B, A) < mdCost(A, B) {
-		perm := w.perm[:nfA*nfB]
-		e.quartetMD(B, A, w, perm)
-		for fb := 0; fb < nfB; fb++ {
-			for fa := 0; fa < nfA; fa++ {
-				out[fa*nfB+fb] = perm[fb*nfA+fa]
-			}
-		}
-		return
-	}
-	e.quartetMD(A, B, w, out)
-}
-
-// quartetMD is the general McMurchie–Davidson quartet with A as bra; out
-// must be zero on entry.
-func (e *ERI) quartetMD(A, B *pairData, w *work, out []float64) {
-	nfA, nfB := A.nf, B.nf
-	for k := range out[:nfA*nfB] {
-		out[k] = 0
-	}
-	L := A.la + A.lb + B.la + B.lb
-	nhA := A.nh
-	r, tmp, f := w.r, w.tmp, w.f
-	x := w.x[:nhA*nfB]
+	r, tmp := w.r, w.tmp
+	nhA, nfB, nfA := A.nh, B.nf, A.nf
+	blockX := nhA * nfB
+	x := w.x[:B.nm*blockX]
+	z := w.z[:blockX]
+	y := w.y[:nfA*nfB]
 	sum, nph := herm.sum, herm.nPairH
-	nzS, nzH := B.nzStart, B.nzH
+	nzS, nzP, usedB := B.nzStart, B.nzPos, B.usedH
+	yb := w.yb[:len(usedB)]
+	single := B.nm == 1
 	for a := 0; a < A.np; a++ {
 		ba := A.bound[a]
 		if ba*B.bound[0] < PrimitiveQuartetThreshold {
@@ -455,10 +592,12 @@ func (e *ERI) quartetMD(A, B *pairData, w *work, out []float64) {
 		}
 		p := A.p[a]
 		pa := A.px[3*a : 3*a+3]
-		for _, h := range A.usedH {
-			xr := x[int(h)*nfB : int(h+1)*nfB]
-			for g := range xr {
-				xr[g] = 0
+		for m := 0; m < B.nm; m++ {
+			for _, h := range A.usedH {
+				xr := x[m*blockX+int(h)*nfB : m*blockX+int(h+1)*nfB]
+				for g := range xr {
+					xr[g] = 0
+				}
 			}
 		}
 		for c := 0; c < B.np; c++ {
@@ -470,29 +609,73 @@ func (e *ERI) quartetMD(A, B *pairData, w *work, out []float64) {
 			pq := [3]float64{pa[0] - qc[0], pa[1] - qc[1], pa[2] - qc[2]}
 			alpha := p * q / (p + q)
 			boys(L, alpha*(pq[0]*pq[0]+pq[1]*pq[1]+pq[2]*pq[2]), f)
-			hermiteR(L, alpha, pq, f, twoPi52*A.kp[a]*B.kp[c]/math.Sqrt(p+q), r, tmp)
+			pref := twoPi52 * A.kp[a] * B.kp[c] / math.Sqrt(p+q)
+			if single {
+				pref *= B.w[c]
+			}
+			hermiteR(L, alpha, pq, f, pref, r, tmp)
 			ek := B.esK[c*B.nnz : (c+1)*B.nnz]
+			dst := z
+			if single {
+				dst = x
+			}
 			for _, h := range A.usedH {
 				base := sum[int(h)*nph : int(h+1)*nph]
-				xr := x[int(h)*nfB : int(h+1)*nfB]
+				for k, hb := range usedB {
+					yb[k] = r[base[hb]]
+				}
+				xr := dst[int(h)*nfB : int(h+1)*nfB]
 				for g := range xr {
 					v := 0.0
 					for j := nzS[g]; j < nzS[g+1]; j++ {
-						v += r[base[nzH[j]]] * ek[j]
+						v += yb[nzP[j]] * ek[j]
 					}
-					xr[g] += v
+					if single {
+						xr[g] += v
+					} else {
+						xr[g] = v
+					}
+				}
+			}
+			if !single {
+				wc := B.w[c*B.nm : (c+1)*B.nm]
+				for m, wm := range wc {
+					xm := x[m*blockX:]
+					for _, h := range A.usedH {
+						zr := z[int(h)*nfB : int(h+1)*nfB]
+						xr := xm[int(h)*nfB : int(h+1)*nfB]
+						for g, zv := range zr {
+							xr[g] += wm * zv
+						}
+					}
 				}
 			}
 		}
 		ea := A.es[a*A.nnz : (a+1)*A.nnz]
-		for fa := 0; fa < nfA; fa++ {
-			o := out[fa*nfB : (fa+1)*nfB]
-			for j := A.nzStart[fa]; j < A.nzStart[fa+1]; j++ {
-				ev := ea[j]
-				h := int(A.nzH[j])
-				xr := x[h*nfB : (h+1)*nfB]
-				for g := range o {
-					o[g] += ev * xr[g]
+		wa := A.w[a*A.nm : (a+1)*A.nm]
+		for m := 0; m < B.nm; m++ {
+			xm := x[m*blockX:]
+			for k := range y {
+				y[k] = 0
+			}
+			for fa := 0; fa < nfA; fa++ {
+				yr := y[fa*nfB : (fa+1)*nfB]
+				for j := A.nzStart[fa]; j < A.nzStart[fa+1]; j++ {
+					ev := ea[j]
+					h := int(A.nzH[j])
+					xr := xm[h*nfB : (h+1)*nfB]
+					for g := range yr {
+						yr[g] += ev * xr[g]
+					}
+				}
+			}
+			for ma, wm := range wa {
+				for fa := 0; fa < nfA; fa++ {
+					o := out[(ma*nfA+fa)*nB+m*nfB : (ma*nfA+fa)*nB+(m+1)*nfB]
+					yr := y[fa*nfB : (fa+1)*nfB]
+					for g, yv := range yr {
+						o[g] += wm * yv
+					}
 				}
 			}
 		}
@@ -503,7 +686,21 @@ func (e *ERI) quartetMD(A, B *pairData, w *work, out []float64) {
 func (e *ERI) Threshold() float64 { return e.thr }
 
 // Schwarz returns sqrt(max |(ij|ij)|) over the functions of shells i, j.
-func (e *ERI) Schwarz(i, j int) float64 { return e.schwarz[pairIndex(i, j)] }
+func (e *ERI) Schwarz(i, j int) float64 { return e.schwarzS[pairIndex(i, j)] }
+
+// pairFunc locates function a of shell i and b of shell j in the group
+// pair holding (i, j): it returns the pair and the pair-function index.
+func (e *ERI) pairFunc(i, j int) (*pairData, func(a, b int) int) {
+	gi, gj := e.shellGrp[i], e.shellGrp[j]
+	mi, mj := e.shellMem[i], e.shellMem[j]
+	pd := &e.pairs[pairIndex(gi, gj)]
+	if gi >= gj {
+		base := (mi*pd.nmb + mj) * pd.nf
+		return pd, func(a, b int) int { return base + a*pd.nfb + b }
+	}
+	base := (mj*pd.nmb + mi) * pd.nf
+	return pd, func(a, b int) int { return base + b*pd.nfb + a }
+}
 
 // Shell writes the (ij|kl) block in final basis functions, row-major
 // [ni][nj][nk][nl], chemists' notation, into out (len ≥ ni·nj·nk·nl).
@@ -511,26 +708,18 @@ func (e *ERI) Schwarz(i, j int) float64 { return e.schwarz[pairIndex(i, j)] }
 func (e *ERI) Shell(i, j, k, l int, out []float64) {
 	w := e.getWork()
 	defer e.workPool.Put(w)
-	A := &e.pairs[pairIndex(i, j)]
-	B := &e.pairs[pairIndex(k, l)]
-	blk := w.out[:A.nf*B.nf]
+	A, fa := e.pairFunc(i, j)
+	B, fb := e.pairFunc(k, l)
+	blk := w.out[:A.ntot*B.ntot]
 	e.quartet(A, B, w, blk)
 	sh := e.mb.Shells
 	ni, nj, nk, nl := sh[i].NFunc(), sh[j].NFunc(), sh[k].NFunc(), sh[l].NFunc()
-	// A stores (max,min) order: fA = fa*nfb + fb with a the shell A.i.
 	for a := 0; a < ni; a++ {
 		for b := 0; b < nj; b++ {
-			fA := a*nj + b
-			if i != A.i {
-				fA = b*ni + a
-			}
+			row := blk[fa(a, b)*B.ntot:]
 			for c := 0; c < nk; c++ {
 				for d := 0; d < nl; d++ {
-					fB := c*nl + d
-					if k != B.i {
-						fB = d*nk + c
-					}
-					out[((a*nj+b)*nk+c)*nl+d] = blk[fA*B.nf+fB]
+					out[((a*nj+b)*nk+c)*nl+d] = row[fb(c, d)]
 				}
 			}
 		}

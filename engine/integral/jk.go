@@ -19,6 +19,7 @@ const numChunks = 32
 // that pass the Schwarz test are processed in ascending order.
 type chunk struct {
 	rows []int32
+	size int64     // integrals of the chunk's quartets
 	vals []float64 // in-core integrals in processing order
 	jAcc [][]float64
 	kAcc [][]float64
@@ -96,15 +97,15 @@ func (e *ERI) setup() {
 	rowVals := make([]int64, np)
 	for P := 0; P < np; P++ {
 		A := &e.pairs[P]
-		qp := e.schwarz[P]
+		qp := e.schwarzP[P]
 		for Q := 0; Q <= P; Q++ {
-			if qp*e.schwarz[Q] < e.thr {
+			if qp*e.schwarzP[Q] < e.thr {
 				st.screened++
 				continue
 			}
 			B := &e.pairs[Q]
 			st.unique++
-			rowVals[P] += int64(A.nf * B.nf)
+			rowVals[P] += int64(A.ntot * B.ntot)
 			rowCost[P] += quartetCost(A, B)
 		}
 	}
@@ -141,6 +142,7 @@ func (e *ERI) setup() {
 		}
 		load[best] += rowCost[P]
 		st.chunks[best].rows = append(st.chunks[best].rows, int32(P))
+		st.chunks[best].size += rowVals[P]
 	}
 	for _, c := range st.chunks {
 		sort.Slice(c.rows, func(a, b int) bool { return c.rows[a] < c.rows[b] })
@@ -278,44 +280,45 @@ const (
 	modeReplay
 )
 
-// densityBlockMax is max |D_μν| per shell pair over all densities.
+// densityBlockMax is max |D_μν| per group pair over all densities.
 func (e *ERI) densityBlockMax(dens [][]float64) []float64 {
-	sh := e.mb.Shells
 	n := e.mb.NBasis
-	out := make([]float64, len(sh)*len(sh))
-	for i := range sh {
-		for j := range sh {
+	ng := len(e.groups)
+	out := make([]float64, ng*ng)
+	for i := range e.groups {
+		for j := range e.groups {
 			m := 0.0
 			for _, d := range dens {
-				for a := 0; a < sh[i].NFunc(); a++ {
-					for b := 0; b < sh[j].NFunc(); b++ {
-						m = math.Max(m, math.Abs(d[(e.mb.Offsets[i]+a)*n+e.mb.Offsets[j]+b]))
+				for _, a := range e.groups[i].funcs {
+					row := d[int(a)*n:]
+					for _, b := range e.groups[j].funcs {
+						m = math.Max(m, math.Abs(row[b]))
 					}
 				}
 			}
-			out[i*len(sh)+j] = m
+			out[i*ng+j] = m
 		}
 	}
 	return out
 }
 
 func (e *ERI) runChunk(c *chunk, mode int, dens [][]float64, dmax []float64, wantK bool, w *work) {
-	ns := len(e.mb.Shells)
+	ns := len(e.groups)
 	var off int
 	if mode == modeStore {
-		c.vals = c.vals[:0]
+		c.vals = make([]float64, 0, c.size)
 	}
 	var computed, dskip int64
 	for _, P32 := range c.rows {
 		P := int(P32)
 		A := &e.pairs[P]
-		qp := e.schwarz[P]
+		qp := e.schwarzP[P]
 		for Q := 0; Q <= P; Q++ {
-			if qp*e.schwarz[Q] < e.thr {
+			if qp*e.schwarzP[Q] < e.thr {
 				continue
 			}
 			B := &e.pairs[Q]
-			nv := A.nf * B.nf
+			nv := A.ntot * B.ntot
 			var blk []float64
 			switch mode {
 			case modeReplay:
@@ -323,19 +326,19 @@ func (e *ERI) runChunk(c *chunk, mode int, dens [][]float64, dmax []float64, wan
 				off += nv
 			case modeStore:
 				start := len(c.vals)
-				c.vals = append(c.vals, make([]float64, nv)...)
+				c.vals = c.vals[:start+nv]
 				blk = c.vals[start : start+nv]
 				e.quartet(A, B, w, blk)
 				computed++
 			default:
-				i, j, k, l := A.i, A.j, B.i, B.j
+				i, j, k, l := A.I, A.J, B.I, B.J
 				dm := 4 * dmax[k*ns+l]
 				dm = math.Max(dm, 4*dmax[i*ns+j])
 				dm = math.Max(dm, dmax[i*ns+k])
 				dm = math.Max(dm, dmax[i*ns+l])
 				dm = math.Max(dm, dmax[j*ns+k])
 				dm = math.Max(dm, dmax[j*ns+l])
-				if qp*e.schwarz[Q]*dm < e.thr {
+				if qp*e.schwarzP[Q]*dm < e.thr {
 					dskip++
 					continue
 				}
@@ -355,61 +358,51 @@ func (e *ERI) runChunk(c *chunk, mode int, dens [][]float64, dmax []float64, wan
 // for J = 2(A+Aᵀ), and the four K terms for K = B+Bᵀ.
 func (e *ERI) contract(A, B *pairData, samePair bool, blk []float64, dens [][]float64, c *chunk, wantK bool) {
 	n := e.mb.NBasis
-	oi, oj := e.mb.Offsets[A.i], e.mb.Offsets[A.j]
-	ok, ol := e.mb.Offsets[B.i], e.mb.Offsets[B.j]
-	ni, nj, nk, nl := A.nfa, A.nfb, B.nfa, B.nfb
 	deg := 1.0
-	if A.i == A.j {
+	if A.I == A.J {
 		deg *= 0.5
 	}
-	if B.i == B.j {
+	if B.I == B.J {
 		deg *= 0.5
 	}
 	if samePair {
 		deg *= 0.5
 	}
+	nB := B.ntot
+	lam, sig := B.mu, B.nu
 	for d, D := range dens {
 		ja := c.jAcc[d]
 		var ka []float64
 		if wantK {
 			ka = c.kAcc[d]
 		}
-		for a := 0; a < ni; a++ {
-			mu := oi + a
-			for b := 0; b < nj; b++ {
-				nu := oj + b
-				dmn := deg * D[mu*n+nu]
-				row := blk[(a*nj+b)*nk*nl : (a*nj+b+1)*nk*nl]
-				jmn := 0.0
-				for cc := 0; cc < nk; cc++ {
-					la := ok + cc
-					r4 := row[cc*nl : (cc+1)*nl]
-					dl := D[la*n+ol : la*n+ol+nl]
-					jl := ja[la*n+ol : la*n+ol+nl]
-					for dd, v := range r4 {
-						jmn += v * dl[dd]
-						jl[dd] += v * dmn
-					}
-					if wantK {
-						dmuS := D[mu*n+ol : mu*n+ol+nl]
-						dnuS := D[nu*n+ol : nu*n+ol+nl]
-						dnl := deg * D[nu*n+la]
-						dml := deg * D[mu*n+la]
-						kmS := ka[mu*n+ol : mu*n+ol+nl]
-						knS := ka[nu*n+ol : nu*n+ol+nl]
-						kml, knl := 0.0, 0.0
-						for dd, v := range r4 {
-							kml += v * dnuS[dd]
-							knl += v * dmuS[dd]
-							kmS[dd] += v * dnl
-							knS[dd] += v * dml
-						}
-						ka[mu*n+la] += deg * kml
-						ka[nu*n+la] += deg * knl
-					}
+		for pa := 0; pa < A.ntot; pa++ {
+			mu, nu := int(A.mu[pa]), int(A.nu[pa])
+			row := blk[pa*nB : (pa+1)*nB]
+			dmn := deg * D[mu*n+nu]
+			dMu, dNu := D[mu*n:(mu+1)*n], D[nu*n:(nu+1)*n]
+			jmn := 0.0
+			if !wantK {
+				for pb, v := range row {
+					l, s := int(lam[pb]), int(sig[pb])
+					jmn += v * D[l*n+s]
+					ja[l*n+s] += v * dmn
 				}
 				ja[mu*n+nu] += deg * jmn
+				continue
 			}
+			kMu, kNu := ka[mu*n:(mu+1)*n], ka[nu*n:(nu+1)*n]
+			for pb, v := range row {
+				l, s := int(lam[pb]), int(sig[pb])
+				jmn += v * D[l*n+s]
+				ja[l*n+s] += v * dmn
+				vd := deg * v
+				kMu[l] += vd * dNu[s]
+				kNu[l] += vd * dMu[s]
+				kMu[s] += vd * dNu[l]
+				kNu[s] += vd * dMu[l]
+			}
+			ja[mu*n+nu] += deg * jmn
 		}
 	}
 }
