@@ -303,7 +303,7 @@ func runOptimize(job *Job, mol *molecule.Molecule, set *basis.Set, o RunOptions)
 	var eg opt.EnergyGradient
 	switch os.GradientMethod {
 	case "finite-difference":
-		eg = opt.FiniteDifferenceGradient(energyAt, os.FiniteDiffStepAU, o.threads())
+		eg = opt.InternalFiniteDifferenceGradient(energyAt, os.FiniteDiffStepAU, o.threads())
 	default:
 		eg = func(x []float64) (float64, []float64, error) {
 			m := opt.WithCoordinates(mol, x)
