@@ -36,6 +36,15 @@ var (
 	boysExp   []float64 // exp(−T_i)
 )
 
+// inv2m1[m] = 1/(2m+1)
+var inv2m1 = func() [boysRows + 1]float64 {
+	var v [boysRows + 1]float64
+	for m := range v {
+		v[m] = 1 / float64(2*m+1)
+	}
+	return v
+}()
+
 var invFact = func() [boysTaylor]float64 {
 	var f [boysTaylor]float64
 	f[0] = 1
@@ -87,7 +96,7 @@ func Boys(mmax int, T float64, f []float64) {
 // boys is Boys without the initialisation check (callers ensure it).
 func boys(mmax int, T float64, f []float64) {
 	if T < boysTMax {
-		i := int(T/boysStep + 0.5)
+		i := int(T*(1/boysStep) + 0.5)
 		d := float64(i)*boysStep - T
 		row := boysTable[i*boysRows+mmax : i*boysRows+mmax+boysTaylor]
 		// Horner in d: Σ_k F_{m+k}(T_i) d^k / k!
@@ -102,7 +111,7 @@ func boys(mmax int, T float64, f []float64) {
 			ex := boysExp[i] * ed
 			t2 := 2 * T
 			for m := mmax - 1; m >= 0; m-- {
-				f[m] = (t2*f[m+1] + ex) / float64(2*m+1)
+				f[m] = (t2*f[m+1] + ex) * inv2m1[m]
 			}
 		}
 		return

@@ -555,9 +555,9 @@ func (e *ERI) quartetMD(A, B *pairData, w *work, out []float64) {
 				q := B.p[c]
 				qc := B.px[3*c : 3*c+3]
 				dx, dy, dz := pa[0]-qc[0], pa[1]-qc[1], pa[2]-qc[2]
-				alpha := p * q / (p + q)
-				boys(0, alpha*(dx*dx+dy*dy+dz*dz), f)
-				v := B.kp[c] * B.es[c] * f[0] / math.Sqrt(p+q)
+				inv := 1 / (p + q)
+				boys(0, p*q*inv*(dx*dx+dy*dy+dz*dz), f)
+				v := B.kp[c] * B.es[c] * f[0] * math.Sqrt(inv)
 				wc := B.w[c*B.nm : (c+1)*B.nm]
 				for m, wm := range wc {
 					xs[m] += wm * v
@@ -607,9 +607,10 @@ func (e *ERI) quartetMD(A, B *pairData, w *work, out []float64) {
 			q := B.p[c]
 			qc := B.px[3*c : 3*c+3]
 			pq := [3]float64{pa[0] - qc[0], pa[1] - qc[1], pa[2] - qc[2]}
-			alpha := p * q / (p + q)
+			inv := 1 / (p + q)
+			alpha := p * q * inv
 			boys(L, alpha*(pq[0]*pq[0]+pq[1]*pq[1]+pq[2]*pq[2]), f)
-			pref := twoPi52 * A.kp[a] * B.kp[c] / math.Sqrt(p+q)
+			pref := twoPi52 * A.kp[a] * B.kp[c] * math.Sqrt(inv)
 			if single {
 				pref *= B.w[c]
 			}
