@@ -99,7 +99,7 @@ func hillFormula(g []engine.GeomAtom) rich {
 }
 
 func (b *builder) structures() {
-	b.add(heading{Level: 1, Number: "Appendix A", Text: txt("Structures"), Break: true})
+	b.add(heading{Level: 1, Number: "A", Prefix: "Appendix ", Text: txt("Structures"), Break: true})
 	ss := b.structuresOf()
 	b.add(paragraph{Text: mk(fmt.Sprintf("Cartesian coordinates in ångström (Å) of the %d distinct final geometr%s, each with its total energy at every level "+
 		"computed on it and the id of the record that holds it. Energies are in hartree (E_{h}).", len(ss), map[bool]string{true: "y", false: "ies"}[len(ss) == 1]))})
@@ -193,7 +193,7 @@ func settingsText(j engine.Job) rich {
 }
 
 func (b *builder) provenance() {
-	b.add(heading{Level: 1, Number: "Appendix B", Text: txt("Provenance"), Break: true})
+	b.add(heading{Level: 1, Number: "B", Prefix: "Appendix ", Text: txt("Provenance"), Break: true})
 	b.add(paragraph{Text: txt("Every record used is listed with its id (the SHA-256 of the stored record) and its input key (the SHA-256 of the canonical input, " +
 		"which covers every setting that can change a number). Builds, basis data and settings shared by several records are listed once and referred to by label. " +
 		"With the id, a record can be looked up in the archive, re-hashed to check it was not altered, and recomputed.")})

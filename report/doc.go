@@ -31,6 +31,8 @@ type block interface{ isBlock() }
 type heading struct {
 	Level  int
 	Number string
+	// Prefix stands before the number in the body ("Appendix "), not in the contents.
+	Prefix string
 	Text   rich
 	Break  bool
 }

@@ -133,3 +133,34 @@ func printable(s string, monoFace bool) string {
 	}
 	return b.String()
 }
+
+// meter measures text with a page-less gofpdf document holding the same
+// faces: its widths are exactly those of the output document, and setting
+// its font writes nothing into any page stream.
+var meter struct {
+	sync.Mutex
+	f        *gofpdf.Fpdf
+	fam, sty string
+	err      error
+}
+
+// symbolWidth is the width of s in the face, in 1/1000 of the type size.
+func symbolWidth(fam, sty, s string) float64 {
+	meter.Lock()
+	defer meter.Unlock()
+	if meter.f == nil && meter.err == nil {
+		f := gofpdf.New("P", "pt", "A4", "")
+		if err := addFonts(f); err != nil {
+			meter.err = err
+		}
+		meter.f = f
+	}
+	if meter.err != nil {
+		return 500 * float64(len([]rune(s)))
+	}
+	if fam != meter.fam || sty != meter.sty {
+		meter.f.SetFont(fam, sty, 10)
+		meter.fam, meter.sty = fam, sty
+	}
+	return float64(meter.f.GetStringSymbolWidth(s))
+}

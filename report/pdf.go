@@ -179,9 +179,8 @@ func (r *renderer) newPage() {
 	r.y = r.t
 }
 
-func widthOf(f *gofpdf.Fpdf, fam, st string, size float64, s string) float64 {
-	f.SetFont(fam, st, size)
-	return f.GetStringWidth(s)
+func widthOf(_ *gofpdf.Fpdf, fam, st string, size float64, s string) float64 {
+	return symbolWidth(fam, st, printable(s, fam == famMono)) * size / 1000
 }
 
 // ensure starts a new page unless h pt still fit.
@@ -198,17 +197,21 @@ func (r *renderer) atTop() bool { return r.y <= r.t+0.01 }
 
 func (r *renderer) setSpanFont(s span, size float64, boldBase bool) float64 {
 	fam, st := fontOf(s.Style, boldBase)
-	sz := size
-	if s.Shift != base {
-		sz = size * scriptK
-	}
+	sz := spanSize(s, size)
 	r.f.SetFont(fam, st, sz)
 	return sz
 }
 
+func spanSize(s span, size float64) float64 {
+	if s.Shift != base {
+		return size * scriptK
+	}
+	return size
+}
+
 func (r *renderer) spanWidth(s span, size float64, boldBase bool) float64 {
-	r.setSpanFont(s, size, boldBase)
-	return r.f.GetStringWidth(printable(s.Text, s.Style == mono))
+	fam, st := fontOf(s.Style, boldBase)
+	return symbolWidth(fam, st, printable(s.Text, s.Style == mono)) * spanSize(s, size) / 1000
 }
 
 func (r *renderer) width(t rich, size float64, boldBase bool) float64 {
@@ -223,7 +226,7 @@ func (r *renderer) width(t rich, size float64, boldBase bool) float64 {
 func (r *renderer) draw(x, y float64, t rich, size float64, boldBase bool) float64 {
 	x0 := x
 	for _, s := range t {
-		sz := r.setSpanFont(s, size, boldBase)
+		r.setSpanFont(s, size, boldBase)
 		dy := 0.0
 		switch s.Shift {
 		case sub:
@@ -235,8 +238,7 @@ func (r *renderer) draw(x, y float64, t rich, size float64, boldBase bool) float
 		if t != "" {
 			r.f.Text(x, y+dy, t)
 		}
-		x += r.f.GetStringWidth(t)
-		_ = sz
+		x += r.spanWidth(s, size, boldBase)
 	}
 	return x - x0
 }
@@ -477,7 +479,7 @@ func (r *renderer) heading(h heading) {
 	base := r.y + size
 	x := r.l
 	if h.Number != "" {
-		x += r.draw(x, base, txt(h.Number), size, true)
+		x += r.draw(x, base, txt(h.Prefix+h.Number), size, true)
 		x += size * 0.9
 	}
 	r.textBlockAt(h.Text, x, base, size, true)

@@ -106,7 +106,7 @@ func renderMarkdown(d *document, w io.Writer) error {
 		case heading:
 			n := b.Number
 			if n != "" {
-				n += " "
+				n = b.Prefix + n + " "
 			}
 			p("%s %s%s\n\n", strings.Repeat("#", b.Level+1), n, b.Text.HTML())
 		case paragraph:
