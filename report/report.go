@@ -146,7 +146,7 @@ func sortedRecords(records []archive.Record) []archive.Record {
 	sort.SliceStable(out, func(i, j int) bool {
 		a, b := out[i], out[j]
 		if a.Input.Molecule.Name != b.Input.Molecule.Name {
-			return a.Input.Molecule.Name < b.Input.Molecule.Name
+			return naturalLess(a.Input.Molecule.Name, b.Input.Molecule.Name)
 		}
 		if la, lb := levelOf(a), levelOf(b); la != lb {
 			return la < lb
@@ -172,3 +172,41 @@ func shortID(id string) string {
 	}
 	return id
 }
+
+// naturalLess orders names with their digit runs read as numbers
+// ("water 2" before "water 10"); ties fall back to byte order.
+func naturalLess(a, b string) bool {
+	i, j := 0, 0
+	for i < len(a) && j < len(b) {
+		ca, cb := a[i], b[j]
+		if isDigit(ca) && isDigit(cb) {
+			si, sj := i, j
+			for i < len(a) && isDigit(a[i]) {
+				i++
+			}
+			for j < len(b) && isDigit(b[j]) {
+				j++
+			}
+			na := strings.TrimLeft(a[si:i], "0")
+			nb := strings.TrimLeft(b[sj:j], "0")
+			if len(na) != len(nb) {
+				return len(na) < len(nb)
+			}
+			if na != nb {
+				return na < nb
+			}
+			continue
+		}
+		if ca != cb {
+			return ca < cb
+		}
+		i++
+		j++
+	}
+	if len(a)-i != len(b)-j {
+		return len(a)-i < len(b)-j
+	}
+	return a < b
+}
+
+func isDigit(c byte) bool { return c >= '0' && c <= '9' }

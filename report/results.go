@@ -47,7 +47,9 @@ func (b *builder) rowsOf(kind string) []*entryRow {
 		}
 	}
 	// group by molecule, keeping the comparison's order within a molecule
-	sort.SliceStable(rows, func(i, j int) bool { return rows[i].molecule < rows[j].molecule })
+	sort.SliceStable(rows, func(i, j int) bool {
+		return rows[i].molecule != rows[j].molecule && naturalLess(rows[i].molecule, rows[j].molecule)
+	})
 	return rows
 }
 

@@ -168,7 +168,14 @@ func (r *renderer) table(t *table) {
 	var ms measured
 	for _, size := range []float64{tableSize, 8, minTable} {
 		ms = r.measureTable(t, size)
-		if widthOfCols(ms.m, all) <= r.textW() {
+		if w := widthOfCols(ms.m, all); w <= r.textW() {
+			// Give spare width to wrapped columns whose text did wrap.
+			if grown, ok := r.growWraps(t, ms, r.textW()-w); ok {
+				if m2 := r.measureTable(grown, size); widthOfCols(m2.m, all) <= r.textW() {
+					r.tablePart(grown, all, m2, "")
+					return
+				}
+			}
 			r.tablePart(t, all, ms, "")
 			return
 		}
@@ -398,4 +405,36 @@ func groupsIn(t *table, cols []int) []colGroup {
 		}
 	}
 	return out
+}
+
+// growWraps widens the wrapping columns that wrapped by a share of spare pt.
+func (r *renderer) growWraps(t *table, ms measured, spare float64) (*table, bool) {
+	if spare < 2 {
+		return nil, false
+	}
+	wrapped := make([]bool, len(t.Head))
+	total := 0.0
+	for j := range t.Head {
+		if j >= len(t.Wrap) || t.Wrap[j] <= 0 {
+			continue
+		}
+		for i, rw := range t.Rows {
+			if j < len(rw.Cells) && len(ms.cells[i][j]) > len(rw.Cells[j].Lines) {
+				wrapped[j] = true
+				total += t.Wrap[j]
+				break
+			}
+		}
+	}
+	if total == 0 {
+		return nil, false
+	}
+	nt := *t
+	nt.Wrap = append([]float64(nil), t.Wrap...)
+	for j, w := range wrapped {
+		if w {
+			nt.Wrap[j] = ms.m[j].w + (spare-1)*t.Wrap[j]/total
+		}
+	}
+	return &nt, true
 }

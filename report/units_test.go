@@ -3,6 +3,7 @@ package report
 import (
 	"math"
 	"reflect"
+	"sort"
 	"strings"
 	"testing"
 
@@ -170,5 +171,14 @@ func TestSplitColumns(t *testing.T) {
 	want := [][]int{{0, 1, 2, 3, 4}, {0, 5, 6}}
 	if !reflect.DeepEqual(got, want) {
 		t.Errorf("splitColumns = %v, want %v", got, want)
+	}
+}
+
+func TestNaturalOrder(t *testing.T) {
+	in := []string{"water 10", "water", "ammonia 2", "water 2", "ammonia 10", "ammonia", "water 02"}
+	sort.SliceStable(in, func(i, j int) bool { return naturalLess(in[i], in[j]) })
+	want := []string{"ammonia", "ammonia 2", "ammonia 10", "water", "water 02", "water 2", "water 10"}
+	if !reflect.DeepEqual(in, want) {
+		t.Errorf("natural order: %q", in)
 	}
 }
