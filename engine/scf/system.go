@@ -36,14 +36,12 @@ func newSystem(m *molecule.Molecule, mb *basis.Molecular, threads int, schwarz f
 			return nil, fmt.Errorf("scf: electron-repulsion integrals: %v", err)
 		}
 	}
-	sys := &system{s: s, h: h, enuc: m.NuclearRepulsion(), eri: eri, jk: eri.JK}
-	if !eri.Stats().InCore {
-		sys.jk = (&incrementalJK{full: eri.JK}).build
-	}
-	return sys, nil
+	inc := &incrementalJK{full: eri.JK, direct: func() bool { return !eri.Stats().InCore }}
+	return &system{s: s, h: h, enuc: m.NuclearRepulsion(), eri: eri, jk: inc.build}, nil
 }
 
-// incrementalJK builds J and K in direct mode from the change of the
+// incrementalJK builds J and K in direct mode (known after the first
+// build) from the change of the
 // density since the previous build, J[D] = J[D_prev] + J[D − D_prev]
 // (likewise K): the integral engine's density screening then skips most
 // quartets once the iterations settle. Every rebuildEvery builds, or when
@@ -51,6 +49,8 @@ func newSystem(m *molecule.Molecule, mb *basis.Molecular, threads int, schwarz f
 // that screening errors cannot accumulate.
 type incrementalJK struct {
 	full     func(d []*mat.SymDense, wantK bool) (j, k []*mat.SymDense)
+	direct   func() bool
+	inCore   bool // the integrals are stored: plain full builds
 	d, j, k  []*mat.SymDense
 	wantK    bool
 	sinceAll int
@@ -59,7 +59,19 @@ type incrementalJK struct {
 const rebuildEvery = 8
 
 func (c *incrementalJK) build(d []*mat.SymDense, wantK bool) ([]*mat.SymDense, []*mat.SymDense) {
-	if c.d == nil || len(c.d) != len(d) || c.wantK != wantK || c.sinceAll >= rebuildEvery {
+	if c.inCore {
+		return c.full(d, wantK)
+	}
+	if c.d == nil {
+		j, k := c.full(d, wantK)
+		if !c.direct() {
+			c.inCore = true
+			return j, k
+		}
+		c.keep(d, j, k, wantK)
+		return j, k
+	}
+	if len(c.d) != len(d) || c.wantK != wantK || c.sinceAll >= rebuildEvery {
 		j, k := c.full(d, wantK)
 		c.keep(d, j, k, wantK)
 		c.sinceAll = 0
