@@ -179,13 +179,13 @@ func (b *builder) details() {
 		}
 		switch c.RelaxedProperties {
 		case "finite-field":
-			s += "; relaxed one-electron properties by finite differences of the energy in an electric field (step " + sci(c.FieldStepAU) + " a.u.)"
+			s += ", with relaxed one-electron properties by finite differences of the energy in an electric field (step " + sci(c.FieldStepAU) + " a.u.)"
 		case "z-vector":
-			s += "; relaxed one-electron properties from the analytic relaxed density"
+			s += ", with relaxed one-electron properties from the analytic relaxed density"
 		case "none", "":
-			s += "; no relaxed properties"
+			s += ", without relaxed properties"
 		default:
-			s += "; relaxed properties: " + esc(c.RelaxedProperties)
+			s += ", with relaxed properties by " + esc(c.RelaxedProperties)
 		}
 		return s, true
 	})
