@@ -26,12 +26,9 @@ import (
 func fixture(t testing.TB, i int, method, basisName string, tags map[string]string, start time.Time) *Record {
 	t.Helper()
 	r := 1.4 + 0.001*float64(i)
-	m := &molecule.Molecule{Name: fmt.Sprintf("hydrogen-%d", i%7)}
-	m.Atoms = []molecule.Atom{molecule.MustAtom("H", 0, 0, 0), molecule.MustAtom("H", 0, 0, r)}
-	job, err := engine.NewJob(engine.Request{Molecule: m, Method: method, Basis: basisName})
-	if err != nil {
-		t.Fatal(err)
-	}
+	job := baseJob(t, method, basisName)
+	job.Molecule.Name = fmt.Sprintf("hydrogen-%d", i%7)
+	job.Molecule.Atoms = []engine.AtomSpec{{Symbol: "H"}, {Symbol: "H", Bohr: [3]float64{0, 0, r}}}
 	dip := [3]float64{0, 0, 0}
 	rec := &Record{
 		Input:  *job,
@@ -48,6 +45,26 @@ func fixture(t testing.TB, i int, method, basisName string, tags map[string]stri
 		t.Fatal(err)
 	}
 	return rec
+}
+
+var jobCache = map[string]engine.Job{}
+
+// baseJob is a normalised H2 job at one level (cached: loading a basis is
+// the slow part of building fixtures).
+func baseJob(t testing.TB, method, basisName string) *engine.Job {
+	k := method + "|" + basisName
+	if j, ok := jobCache[k]; ok {
+		return &j
+	}
+	m := &molecule.Molecule{Name: "hydrogen"}
+	m.Atoms = []molecule.Atom{molecule.MustAtom("H", 0, 0, 0), molecule.MustAtom("H", 0, 0, 1.4)}
+	job, err := engine.NewJob(engine.Request{Molecule: m, Method: method, Basis: basisName})
+	if err != nil {
+		t.Fatal(err)
+	}
+	jobCache[k] = *job
+	j := *job
+	return &j
 }
 
 var t0 = time.Date(2024, 5, 6, 7, 8, 9, 0, time.UTC)

@@ -138,12 +138,13 @@ func (s *Store) Import(r io.Reader, source string) (ImportReport, error) {
 	if err != nil {
 		return ImportReport{Source: source, Refused: []Refusal{}}, err
 	}
-	return s.ImportRecords(recs, lines, source)
+	return s.ImportRecords(recs, lines, source, nil)
 }
 
 // ImportRecords stores records read by ReadRecords (lines are their line
 // numbers in source): hash mismatches are refused, present ids skipped.
-func (s *Store) ImportRecords(recs []*Record, lines []int, source string) (ImportReport, error) {
+// progress (may be nil) is called after each committed transaction.
+func (s *Store) ImportRecords(recs []*Record, lines []int, source string, progress func(done, total int)) (ImportReport, error) {
 	rep := ImportReport{Source: source, Refused: []Refusal{}, Lines: len(recs)}
 	var good []*Record
 	for i, rec := range recs {
@@ -153,7 +154,7 @@ func (s *Store) ImportRecords(recs []*Record, lines []int, source string) (Impor
 		}
 		good = append(good, rec)
 	}
-	n, err := s.PutMany(good)
+	n, err := s.PutManyProgress(good, progress)
 	rep.Imported = n
 	rep.Skipped = len(good) - n
 	return rep, err

@@ -67,7 +67,11 @@ func (s *Store) Put(r *Record) (bool, error) {
 // PutMany stores sealed records, skipping ids already present, and returns
 // how many were new. Each record is written whole with its index entries
 // in one transaction (several records share a transaction).
-func (s *Store) PutMany(recs []*Record) (int, error) {
+func (s *Store) PutMany(recs []*Record) (int, error) { return s.PutManyProgress(recs, nil) }
+
+// PutManyProgress is PutMany calling progress(done, total) after each
+// committed transaction.
+func (s *Store) PutManyProgress(recs []*Record, progress func(done, total int)) (int, error) {
 	if s.readOnly {
 		return 0, fmt.Errorf("archive %s is open read-only", s.dir)
 	}
@@ -153,6 +157,9 @@ func (s *Store) PutMany(recs []*Record) (int, error) {
 		}
 		added += fresh
 		all = all[n:]
+		if progress != nil {
+			progress(len(seen)-len(all), len(seen))
+		}
 	}
 	return added, nil
 }

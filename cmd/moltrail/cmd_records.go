@@ -278,7 +278,9 @@ func cmdImport(args []string, stdout, stderr io.Writer) int {
 		return fail(stderr, code, "import", err)
 	}
 	defer st.Close()
-	rep, err := st.ImportRecords(recs, lines, pos[0])
+	rep, err := st.ImportRecords(recs, lines, pos[0], func(done, total int) {
+		fmt.Fprintf(stderr, "moltrail import: %d of %d records written\n", done, total)
+	})
 	if err != nil {
 		return fail(stderr, exitFailed, "import", err)
 	}
