@@ -59,6 +59,11 @@
 // orbitals are eigenvectors of the last (unextrapolated, unshifted) Fock
 // matrix, and Da, Db are built from them; Energy is Ek.
 //
+// When the integral engine runs direct (integrals recomputed at every
+// build), J and K are built from the density change since the previous
+// build, with a full build every few iterations; in-core they are always
+// built from the full density.
+//
 // Non-convergence within MaxIter is a result (Converged false, with the
 // history), not an error. All reductions run in a fixed order, so the same
 // input gives the same bits whatever the thread count.
