@@ -6,6 +6,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"math"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -498,5 +499,27 @@ func TestReadOnlyAfterUncleanExit(t *testing.T) {
 	}
 	if v, _ := s.Verify(); len(v.Problems) != 0 {
 		t.Fatalf("verify: %+v", v.Problems)
+	}
+}
+
+func TestParsePrinted(t *testing.T) {
+	cases := []struct {
+		in        string
+		low, high float64
+	}{
+		{"1.93", 1.925, 1.935},
+		{"-76.0268", -76.02685, -76.02675},
+		{"95.8", 95.75, 95.85},
+		{"9.58e1", 95.75, 95.85},
+		{"104", 103.5, 104.5},
+	}
+	for _, c := range cases {
+		p, err := ParsePrinted(c.in)
+		if err != nil || math.Abs(p.Low-c.low) > 1e-12 || math.Abs(p.High-c.high) > 1e-12 {
+			t.Errorf("%s: [%v, %v) %v, want [%v, %v)", c.in, p.Low, p.High, err, c.low, c.high)
+		}
+	}
+	if _, err := ParsePrinted("1.9.3"); err == nil {
+		t.Error("1.9.3 accepted")
 	}
 }

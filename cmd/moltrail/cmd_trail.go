@@ -1,0 +1,302 @@
+package main
+
+import (
+	"fmt"
+	"io"
+	"math"
+	"strings"
+
+	"moltrail/archive"
+)
+
+func init() {
+	register(Command{Name: "reproduce", Summary: "re-run a record's exact input with this code; per-quantity differences and a verdict", Run: cmdReproduce})
+	register(Command{Name: "trace", Summary: "which records, quantities and settings produced a printed figure", Run: cmdTrace})
+	register(Command{Name: "diff", Summary: "what differs between two records: settings, code, results", Run: cmdDiff})
+}
+
+func cmdReproduce(args []string, stdout, stderr io.Writer) int {
+	fs := newFlags("reproduce", stderr, "ID | --all [filters] [--json]")
+	af := addArchiveFlags(fs)
+	ff := addFilterFlags(fs)
+	all := fs.Bool("all", false, "reproduce every record matching the filters")
+	threads := fs.Int("threads", 0, "worker threads (0 = all cores)")
+	asJSON := fs.Bool("json", false, "print the outcome as JSON (an object for one ID, an array with --all)")
+	pos, code, ok := parseFlags(fs, args)
+	if !ok {
+		return code
+	}
+	if (*all) == (len(pos) == 1) || len(pos) > 1 {
+		fmt.Fprintln(stderr, "moltrail reproduce: give one record id, or --all with optional filters")
+		return exitUsage
+	}
+	st, code, err := af.open(true, stderr)
+	if err != nil {
+		return fail(stderr, code, "reproduce", err)
+	}
+	var ids []string
+	if *all {
+		f, err := ff.filter()
+		if err != nil {
+			st.Close()
+			return fail(stderr, exitUsage, "reproduce", err)
+		}
+		sums, err := st.List(f)
+		if err != nil {
+			st.Close()
+			return fail(stderr, exitFailed, "reproduce", err)
+		}
+		for _, s := range sums {
+			ids = append(ids, s.ID)
+		}
+	} else {
+		id, err := st.Resolve(pos[0])
+		if err != nil {
+			st.Close()
+			return fail(stderr, exitUsage, "reproduce", err)
+		}
+		ids = []string{id}
+	}
+	st.Close()
+	var reps []*archive.Reproduction
+	bad := 0
+	for _, id := range ids {
+		rep, err := archive.Reproduce(af.path(), id, archive.RunRequest{Threads: *threads, Wait: af.waitOrNone(), Log: stderr}, engineCompute)
+		if err != nil {
+			return fail(stderr, exitFailed, "reproduce", fmt.Errorf("record %s: %v", id[:12], err))
+		}
+		if rep.Verdict != archive.Reproduced {
+			bad++
+		}
+		reps = append(reps, rep)
+	}
+	switch {
+	case *asJSON && !*all:
+		printJSON(stdout, reps[0])
+	case *asJSON:
+		if reps == nil {
+			reps = []*archive.Reproduction{}
+		}
+		printJSON(stdout, reps)
+	case !*all:
+		writeReproduction(stdout, reps[0])
+	default:
+		t := &table{head: []string{"original", "molecule", "verdict", "new record", "why"}}
+		for _, r := range reps {
+			nw := "—"
+			if r.New != "" {
+				nw = r.New[:12]
+			}
+			t.add(r.Original[:12], r.Molecule, r.Verdict, nw, r.Reason)
+		}
+		t.write(stdout)
+		fmt.Fprintf(stdout, "%d of %d record(s) reproduced\n", len(reps)-bad, len(reps))
+	}
+	if bad > 0 {
+		return exitFailed
+	}
+	return exitOK
+}
+
+func writeReproduction(w io.Writer, r *archive.Reproduction) {
+	fmt.Fprintf(w, "record %s (%s): %s\n", r.Original, r.Molecule, strings.ToUpper(r.Verdict))
+	if r.Reason != "" {
+		fmt.Fprintf(w, "  why: %s\n", r.Reason)
+	}
+	if r.New != "" {
+		fmt.Fprintf(w, "  new run stored as %s (lineage: reproduces)\n", r.New)
+	}
+	fmt.Fprintln(w, "  tolerances, from the record's own convergence criteria:")
+	for _, t := range r.Tolerances {
+		fmt.Fprintf(w, "    %-10s ± %.3g %s  (%s)\n", t.Kind, t.Abs, t.Unit, t.Rule)
+	}
+	if len(r.Code) == 0 {
+		fmt.Fprintln(w, "  code: the same build")
+	} else {
+		fmt.Fprintln(w, "  code differences (original → now):")
+		for _, c := range r.Code {
+			fmt.Fprintf(w, "    %-18s %s → %s\n", c.Field, orDash(c.A), orDash(c.B))
+		}
+	}
+	if len(r.Checks) > 0 {
+		t := &table{head: []string{"quantity", "original", "now", "difference", "tolerance", "unit", ""}, right: []bool{false, true, true, true, true}}
+		for _, c := range r.Checks {
+			mark := "ok"
+			if !c.Within {
+				mark = "MOVED"
+			}
+			t.add(c.Quantity, num(c.Original), num(c.New), fmt.Sprintf("%.2e", c.Diff), fmt.Sprintf("%.1e", c.Tol), c.Unit, mark)
+		}
+		t.write(w)
+	}
+}
+
+func orDash(s string) string {
+	if s == "" {
+		return "—"
+	}
+	return s
+}
+
+func num(v float64) string {
+	if math.IsNaN(v) {
+		return "—"
+	}
+	return fmt.Sprintf("%.10g", v)
+}
+
+func cmdTrace(args []string, stdout, stderr io.Writer) int {
+	fs := newFlags("trace", stderr, "VALUE [--unit U] [filters] [--json]")
+	af := addArchiveFlags(fs)
+	ff := addFilterFlags(fs)
+	unit := fs.String("unit", "", "unit of the figure: "+archive.UnitNames()+" (default: each quantity in its stored unit)")
+	asJSON := fs.Bool("json", false, "print the matches as JSON")
+	pos, code, ok := parseFlags(fs, args)
+	if !ok {
+		return code
+	}
+	if len(pos) != 1 {
+		fmt.Fprintln(stderr, "moltrail trace: give one printed figure, e.g. moltrail trace 1.93 --unit D")
+		return exitUsage
+	}
+	f, err := ff.filter()
+	if err != nil {
+		return fail(stderr, exitUsage, "trace", err)
+	}
+	if _, err := archive.ParsePrinted(pos[0]); err != nil {
+		return fail(stderr, exitUsage, "trace", err)
+	}
+	st, code, err := af.open(true, stderr)
+	if err != nil {
+		return fail(stderr, code, "trace", err)
+	}
+	defer st.Close()
+	recs, err := st.Records(f)
+	if err != nil {
+		return fail(stderr, exitFailed, "trace", err)
+	}
+	ms, pv, err := archive.Trace(recs, pos[0], *unit)
+	if err != nil {
+		return fail(stderr, exitUsage, "trace", err)
+	}
+	if *asJSON {
+		if ms == nil {
+			ms = []archive.TraceMatch{}
+		}
+		printJSON(stdout, map[string]any{"figure": pv, "unit": *unit, "matches": ms})
+		return exitOK
+	}
+	fmt.Fprintf(stdout, "%s stands for %.10g ≤ x < %.10g; searched %d record(s)\n", pv.Text, pv.Low, pv.High, len(recs))
+	if len(ms) == 0 {
+		fmt.Fprintln(stdout, "no stored quantity prints as this figure")
+		return exitOK
+	}
+	t := &table{head: []string{"record", "molecule", "quantity", "value", "unit", "method/basis", "scf ΔE tol", "revision", "started UTC", ""}, right: []bool{false, false, false, true}}
+	for _, m := range ms {
+		note := ""
+		if m.MagnitudeOnly {
+			note = "magnitude only (sign differs)"
+		}
+		rev := m.Revision
+		if len(rev) > 10 {
+			rev = rev[:10]
+		}
+		t.add(m.RecordID[:12], m.Molecule, m.Quantity, fmt.Sprintf("%.8g", m.Value), m.Unit, m.Method+"/"+m.Basis+angularMark(m.Angular),
+			fmt.Sprintf("%.0e", m.EnergyTol), orDash(rev)+" "+m.Version, utc(m.StartUTC), note)
+	}
+	t.write(stdout)
+	fmt.Fprintf(stdout, "%d match(es). A match says only that the figure is consistent with a stored value; check the settings against the source of the figure.\n", len(ms))
+	return exitOK
+}
+
+func cmdDiff(args []string, stdout, stderr io.Writer) int {
+	fs := newFlags("diff", stderr, "ID ID [--json]")
+	af := addArchiveFlags(fs)
+	asJSON := fs.Bool("json", false, "print the differences as JSON")
+	pos, code, ok := parseFlags(fs, args)
+	if !ok {
+		return code
+	}
+	if len(pos) != 2 {
+		fmt.Fprintln(stderr, "moltrail diff: give two record ids (unique prefixes are fine)")
+		return exitUsage
+	}
+	st, code, err := af.open(true, stderr)
+	if err != nil {
+		return fail(stderr, code, "diff", err)
+	}
+	defer st.Close()
+	var recs [2]*archive.Record
+	for i, p := range pos {
+		id, err := st.Resolve(p)
+		if err != nil {
+			return fail(stderr, exitUsage, "diff", err)
+		}
+		if recs[i], _, err = st.Get(id); err != nil {
+			return fail(stderr, exitFailed, "diff", err)
+		}
+	}
+	d := archive.Diff(recs[0], recs[1])
+	if *asJSON {
+		printJSON(stdout, d)
+		return exitOK
+	}
+	fmt.Fprintf(stdout, "A %s  %s  %s\nB %s  %s  %s\n", d.A, recs[0].Input.Molecule.Name, utc(recs[0].Run.StartUTC), d.B, recs[1].Input.Molecule.Name, utc(recs[1].Run.StartUTC))
+	section := func(title string, n int) bool {
+		if n == 0 {
+			fmt.Fprintf(stdout, "\n» %s: no differences\n", title)
+			return false
+		}
+		fmt.Fprintf(stdout, "\n» %s: %d difference(s)\n", title, n)
+		return true
+	}
+	if section("input", len(d.Input)) {
+		t := &table{head: []string{"field", "A", "B"}}
+		for _, f := range d.Input {
+			t.add(f.Field, cell(f.A), cell(f.B))
+		}
+		t.write(stdout)
+	}
+	if section("code", len(d.Code)) {
+		t := &table{head: []string{"field", "A", "B"}}
+		for _, c := range d.Code {
+			t.add(c.Field, orDash(c.A), orDash(c.B))
+		}
+		t.write(stdout)
+	}
+	for _, s := range d.Status {
+		fmt.Fprintf(stdout, "\n» %s: A %s, B %s\n", s.Field, cell(s.A), cell(s.B))
+	}
+	if section("results", len(d.Results)) {
+		t := &table{head: []string{"quantity", "A", "B", "B − A", "relative", "unit"}, right: []bool{false, true, true, true, true}}
+		for _, r := range d.Results {
+			t.add(r.Quantity, pnum(r.A), pnum(r.B), pexp(r.Abs), pexp(r.Rel), r.Unit)
+		}
+		t.write(stdout)
+	}
+	return exitOK
+}
+
+func cell(v any) string {
+	if v == nil {
+		return "—"
+	}
+	if f, ok := v.(float64); ok {
+		return fmt.Sprintf("%.12g", f)
+	}
+	return fmt.Sprint(v)
+}
+
+func pnum(p *float64) string {
+	if p == nil {
+		return "—"
+	}
+	return fmt.Sprintf("%.10g", *p)
+}
+
+func pexp(p *float64) string {
+	if p == nil {
+		return "—"
+	}
+	return fmt.Sprintf("%.2e", *p)
+}
