@@ -1,0 +1,553 @@
+package integral
+
+import (
+	"fmt"
+	"math"
+	"runtime"
+	"sync"
+	"sync/atomic"
+
+	"gonum.org/v1/gonum/mat"
+
+	"moltrail/engine/basis"
+)
+
+// Two-electron part of the nuclear gradient, contracted on the fly.
+//
+// With the Hermite expansion of a primitive pair, Ω_ab = Σ_h E^{ab}_h Λ_h,
+//
+//	(ab|cd) = 2π^{5/2}/(pq√(p+q)) Σ_{h,h'} E^{ab}_h (−1)^{|h'|} E^{cd}_{h'} R_{h+h'}(α, P−Q).
+//
+// The derivative with respect to the centre A of function a replaces E^{ab}
+// by the coefficients of ∂Ω_ab/∂A_x = (2a G_{a+1x} − a_x G_{a−1x}) G_b,
+// which have one more Hermite order; likewise for B. For one shell quartet
+// the density factor Γ is first folded into the ket coefficients,
+// KΓ^c[f][h'] = Σ_g Γ[f][g] (−1)^{|h'|} E^c[g][h'], then for each bra
+// primitive X[f][h] = Σ_c Σ_h' R_{h+h'} KΓ^c[f][h'] is accumulated and the
+// six bra-centre derivatives are Σ_{f,h} E'^{a}_{Ax..Bz}[f][h] X[f][h].
+// The ket centres follow from the same routine with bra and ket exchanged;
+// when one pair sits on a single atom its total derivative is minus that of
+// the other pair (translational invariance), so one pass suffices.
+//
+// Screening: quartets with Q_ij·Q_kl below the Schwarz threshold, or with
+// Q_ij·Q_kl·max|Γ| below it, are skipped. Determinism: bra shell pairs are
+// dealt to a fixed number of chunks (independent of the thread count),
+// each accumulating its own gradient in a fixed order; the chunks are summed
+// in index order.
+
+// numGradChunks is the fixed number of work units of a gradient build.
+const numGradChunks = 64
+
+// GradientOptions control TwoElectronGradient.
+type GradientOptions struct {
+	// SchwarzThreshold for dropping quartets; 0 means
+	// DefaultSchwarzThreshold (or the threshold of Bounds when given).
+	SchwarzThreshold float64
+	// Threads; 0 means runtime.NumCPU().
+	Threads int
+	// Bounds optionally supplies the shell-pair Schwarz bounds of an
+	// existing engine for the same basis (e.g. the SCF's); otherwise they
+	// are computed.
+	Bounds *ERI
+}
+
+// dPair holds the Gaussian-product data of shell pair (i, j), i ≥ j, with
+// the Hermite coefficients of the final function pairs and of their
+// centre derivatives.
+type dPair struct {
+	i, j         int
+	atomA, atomB int
+	la, lb       int
+	nfa, nfb, nf int
+	nh0, nh1     int // nHerm(la+lb), nHerm(la+lb+1)
+	np           int
+	p            []float64
+	px           []float64 // 3 per primitive pair
+	kp           []float64 // c_a c_b exp(−μ R_AB²)/p
+	e            []float64 // [np][nf][nh0]
+	ed           []float64 // [np][6][nf][nh1]: ∂/∂A_x,y,z, ∂/∂B_x,y,z
+}
+
+func makeDPair(mb *basis.Molecular, i, j int, ta, tb []float64) *dPair {
+	A, B := &mb.Shells[i], &mb.Shells[j]
+	la, lb := A.L, B.L
+	dp := &dPair{i: i, j: j, atomA: A.Atom, atomB: B.Atom, la: la, lb: lb, nfa: A.NFunc(), nfb: B.NFunc()}
+	dp.nf = dp.nfa * dp.nfb
+	dp.nh0, dp.nh1 = nHerm(la+lb), nHerm(la+lb+1)
+	ca, cb := basis.CartComponents(la), basis.CartComponents(lb)
+	nca, ncb := len(ca), len(cb)
+	la1, lb1 := la+1, lb+1
+	nt := la1 + lb1 + 1
+	ex := make([][]float64, 3)
+	for d := range ex {
+		ex[d] = make([]float64, (la1+1)*(lb1+1)*nt)
+	}
+	E := func(d, i, j int) []float64 {
+		if i < 0 || j < 0 {
+			return nil
+		}
+		o := (i*(lb1+1) + j) * nt
+		return ex[d][o : o+nt]
+	}
+	cart0 := make([]float64, nca*ncb*dp.nh0)
+	cartD := make([]float64, 6*nca*ncb*dp.nh1)
+	var e0, eA, eB [3][]float64
+	for d := 0; d < 3; d++ {
+		e0[d] = make([]float64, nt)
+		eA[d] = make([]float64, nt)
+		eB[d] = make([]float64, nt)
+	}
+	ab2 := dist2(A.Centre, B.Centre)
+	for pa, a := range A.Exponents {
+		for pb, b := range B.Exponents {
+			p := a + b
+			mu := a * b / p
+			K := math.Exp(-mu*ab2) * A.Coefs[pa] * B.Coefs[pb]
+			if math.Abs(K)*math.Pow(math.Pi/p, 1.5) < PrimitiveThreshold {
+				continue
+			}
+			var P [3]float64
+			for d := 0; d < 3; d++ {
+				P[d] = (a*A.Centre[d] + b*B.Centre[d]) / p
+				eCoef1D(la1, lb1, p, P[d]-A.Centre[d], P[d]-B.Centre[d], ex[d])
+			}
+			for k := range cart0 {
+				cart0[k] = 0
+			}
+			for k := range cartD {
+				cartD[k] = 0
+			}
+			for ia, x := range ca {
+				for ib, y := range cb {
+					q := ia*ncb + ib
+					for d := 0; d < 3; d++ {
+						i, j := x[d], y[d]
+						e, eu, ev := E(d, i, j), E(d, i+1, j), E(d, i, j+1)
+						for t := 0; t < nt; t++ {
+							e0[d][t] = e[t]
+							eA[d][t] = 2 * a * eu[t]
+							eB[d][t] = 2 * b * ev[t]
+						}
+						if i > 0 {
+							for t, v := range E(d, i-1, j) {
+								eA[d][t] -= float64(i) * v
+							}
+						}
+						if j > 0 {
+							for t, v := range E(d, i, j-1) {
+								eB[d][t] -= float64(j) * v
+							}
+						}
+					}
+					dst := cart0[q*dp.nh0:]
+					for t := 0; t <= x[0]+y[0]; t++ {
+						for u := 0; u <= x[1]+y[1]; u++ {
+							for v := 0; v <= x[2]+y[2]; v++ {
+								dst[herm.idx[t][u][v]] = e0[0][t] * e0[1][u] * e0[2][v]
+							}
+						}
+					}
+					for t := 0; t <= x[0]+y[0]+1; t++ {
+						for u := 0; u <= x[1]+y[1]+1; u++ {
+							for v := 0; v <= x[2]+y[2]+1; v++ {
+								if t+u+v > la+lb+1 {
+									continue
+								}
+								h := int(herm.idx[t][u][v])
+								vals := [6]float64{
+									eA[0][t] * e0[1][u] * e0[2][v], e0[0][t] * eA[1][u] * e0[2][v], e0[0][t] * e0[1][u] * eA[2][v],
+									eB[0][t] * e0[1][u] * e0[2][v], e0[0][t] * eB[1][u] * e0[2][v], e0[0][t] * e0[1][u] * eB[2][v],
+								}
+								for k, val := range vals {
+									cartD[(k*nca*ncb+q)*dp.nh1+h] = val
+								}
+							}
+						}
+					}
+				}
+			}
+			dp.e = append(dp.e, transformHerm(ta, dp.nfa, nca, tb, dp.nfb, ncb, cart0, dp.nh0)...)
+			for k := 0; k < 6; k++ {
+				blk := cartD[k*nca*ncb*dp.nh1 : (k+1)*nca*ncb*dp.nh1]
+				dp.ed = append(dp.ed, transformHerm(ta, dp.nfa, nca, tb, dp.nfb, ncb, blk, dp.nh1)...)
+			}
+			dp.p = append(dp.p, p)
+			dp.px = append(dp.px, P[0], P[1], P[2])
+			dp.kp = append(dp.kp, K/p)
+			dp.np++
+		}
+	}
+	return dp
+}
+
+// transformHerm takes Cartesian Hermite coefficients [nca·ncb][nh] to the
+// final functions [nfa·nfb][nh].
+func transformHerm(ta []float64, nfa, nca int, tb []float64, nfb, ncb int, cart []float64, nh int) []float64 {
+	half := make([]float64, nca*nfb*nh)
+	for ia := 0; ia < nca; ia++ {
+		for fb := 0; fb < nfb; fb++ {
+			dst := half[(ia*nfb+fb)*nh : (ia*nfb+fb+1)*nh]
+			for ib := 0; ib < ncb; ib++ {
+				c := tb[fb*ncb+ib]
+				if c == 0 {
+					continue
+				}
+				src := cart[(ia*ncb+ib)*nh : (ia*ncb+ib+1)*nh]
+				for h := range dst {
+					dst[h] += c * src[h]
+				}
+			}
+		}
+	}
+	out := make([]float64, nfa*nfb*nh)
+	for fa := 0; fa < nfa; fa++ {
+		for ia := 0; ia < nca; ia++ {
+			c := ta[fa*nca+ia]
+			if c == 0 {
+				continue
+			}
+			for fb := 0; fb < nfb; fb++ {
+				dst := out[(fa*nfb+fb)*nh : (fa*nfb+fb+1)*nh]
+				src := half[(ia*nfb+fb)*nh:]
+				for h := range dst {
+					dst[h] += c * src[h]
+				}
+			}
+		}
+	}
+	return out
+}
+
+// gradWork is one worker's scratch space.
+type gradWork struct {
+	kg, x, g, gt []float64
+	f, r, tmp    []float64
+	rb           []float64
+}
+
+func grow(b []float64, n int) []float64 {
+	if cap(b) < n {
+		return make([]float64, n)
+	}
+	return b[:n]
+}
+
+// sideGrad returns the derivatives of Σ Γ[f][g] (f∈P | g∈Q) with respect
+// to the two centres of P (A x, y, z, then B x, y, z).
+func sideGrad(P, Q *dPair, G []float64, w *gradWork) [6]float64 {
+	var out [6]float64
+	if P.np == 0 || Q.np == 0 {
+		return out
+	}
+	nf, ng := P.nf, Q.nf
+	nh1, nhq := P.nh1, Q.nh0
+	L := P.la + P.lb + Q.la + Q.lb + 1
+	// KΓ^c[f][h'] = Σ_g Γ[f][g] (−1)^{|h'|} E^c[g][h']
+	w.kg = grow(w.kg, Q.np*nf*nhq)
+	kg := w.kg
+	for k := range kg {
+		kg[k] = 0
+	}
+	sign := herm.sign
+	for c := 0; c < Q.np; c++ {
+		ec := Q.e[c*ng*nhq : (c+1)*ng*nhq]
+		kc := kg[c*nf*nhq : (c+1)*nf*nhq]
+		for f := 0; f < nf; f++ {
+			dst := kc[f*nhq : (f+1)*nhq]
+			for g := 0; g < ng; g++ {
+				gv := G[f*ng+g]
+				if gv == 0 {
+					continue
+				}
+				src := ec[g*nhq : (g+1)*nhq]
+				for h, v := range src {
+					dst[h] += gv * v
+				}
+			}
+		}
+		for f := 0; f < nf; f++ {
+			dst := kc[f*nhq : (f+1)*nhq]
+			for h := range dst {
+				dst[h] *= sign[h]
+			}
+		}
+	}
+	w.x = grow(w.x, nf*nh1)
+	x := w.x
+	nhr := nHerm(L)
+	w.r, w.tmp = grow(w.r, nhr), grow(w.tmp, nhr)
+	w.f = grow(w.f, L+1)
+	w.rb = grow(w.rb, nhq)
+	r, tmp, fb, rb := w.r, w.tmp, w.f, w.rb
+	sum, nph := herm.sum, herm.nPairH
+	for a := 0; a < P.np; a++ {
+		p := P.p[a]
+		pa := P.px[3*a : 3*a+3]
+		for k := range x {
+			x[k] = 0
+		}
+		for c := 0; c < Q.np; c++ {
+			q := Q.p[c]
+			qc := Q.px[3*c : 3*c+3]
+			pq := [3]float64{pa[0] - qc[0], pa[1] - qc[1], pa[2] - qc[2]}
+			alpha := p * q / (p + q)
+			boys(L, alpha*(pq[0]*pq[0]+pq[1]*pq[1]+pq[2]*pq[2]), fb)
+			pref := twoPi52 * P.kp[a] * Q.kp[c] / math.Sqrt(p+q)
+			hermiteR(L, alpha, pq, fb, pref, r, tmp)
+			kc := kg[c*nf*nhq : (c+1)*nf*nhq]
+			for h := 0; h < nh1; h++ {
+				base := sum[h*nph : h*nph+nhq]
+				for k, hb := range base {
+					rb[k] = r[hb]
+				}
+				for f := 0; f < nf; f++ {
+					kr := kc[f*nhq : (f+1)*nhq]
+					s := 0.0
+					for k, v := range kr {
+						s += rb[k] * v
+					}
+					x[f*nh1+h] += s
+				}
+			}
+		}
+		ed := P.ed[a*6*nf*nh1 : (a+1)*6*nf*nh1]
+		for d := 0; d < 6; d++ {
+			blk := ed[d*nf*nh1 : (d+1)*nf*nh1]
+			s := 0.0
+			for k, v := range blk {
+				s += v * x[k]
+			}
+			out[d] += s
+		}
+	}
+	return out
+}
+
+// TwoElectronGradient returns the 3·natoms vector Σ_μνλσ ∂(μν|λσ)/∂R Γ_μνλσ
+// with
+//
+//	Γ_μνλσ = ½ cJ D_μν D_λσ − ½ cK Σ_σ Dσ_μλ Dσ_νσ,   D = Dα + Dβ,
+//
+// the derivative of the two-electron energy ½ cJ tr(D J[D]) −
+// ½ cK Σσ tr(Dσ K[Dσ]) at fixed densities. For a restricted density pass
+// Dα = Dβ = D/2.
+func TwoElectronGradient(mb *basis.Molecular, Da, Db *mat.SymDense, coulomb, exchange float64, natoms int, opt GradientOptions) ([]float64, error) {
+	if mb == nil || len(mb.Shells) == 0 {
+		return nil, fmt.Errorf("integral: two-electron gradient: the basis has no shells")
+	}
+	n := mb.NBasis
+	if Da == nil || Db == nil || Da.SymmetricDim() != n || Db.SymmetricDim() != n {
+		return nil, fmt.Errorf("integral: two-electron gradient: density matrices missing or not %d×%d", n, n)
+	}
+	for i, sh := range mb.Shells {
+		if sh.L > MaxL {
+			return nil, fmt.Errorf("integral: two-electron gradient: shell %d has angular momentum %d; derivatives go up to l = %d", i, sh.L, MaxL)
+		}
+		if sh.Atom < 0 || sh.Atom >= natoms {
+			return nil, fmt.Errorf("integral: two-electron gradient: shell %d sits on atom %d of %d", i, sh.Atom, natoms)
+		}
+	}
+	if opt.SchwarzThreshold < 0 || math.IsNaN(opt.SchwarzThreshold) {
+		return nil, fmt.Errorf("integral: two-electron gradient: Schwarz threshold %g is negative or not a number", opt.SchwarzThreshold)
+	}
+	threads := opt.Threads
+	if threads <= 0 {
+		threads = runtime.NumCPU()
+	}
+	bounds := opt.Bounds
+	if bounds != nil && bounds.mb.NBasis != n {
+		return nil, fmt.Errorf("integral: two-electron gradient: the bounds engine belongs to a basis of %d functions, not %d", bounds.mb.NBasis, n)
+	}
+	thr := opt.SchwarzThreshold
+	if bounds == nil {
+		var err error
+		bounds, err = NewERI(mb, Options{SchwarzThreshold: thr, Threads: threads})
+		if err != nil {
+			return nil, err
+		}
+	}
+	if thr == 0 {
+		thr = bounds.thr
+	}
+	boysOnce.Do(initBoys)
+	ns := len(mb.Shells)
+	trans := shellTransforms(mb)
+	pairs := make([]*dPair, ns*(ns+1)/2)
+	{
+		var next atomic.Int64
+		var wg sync.WaitGroup
+		for t := 0; t < threads; t++ {
+			wg.Add(1)
+			go func() {
+				defer wg.Done()
+				for {
+					k := int(next.Add(1) - 1)
+					if k >= len(pairs) {
+						return
+					}
+					i := int((math.Sqrt(float64(8*k+1)) - 1) / 2)
+					for i*(i+1)/2 > k {
+						i--
+					}
+					for (i+1)*(i+2)/2 <= k {
+						i++
+					}
+					j := k - i*(i+1)/2
+					pairs[k] = makeDPair(mb, i, j, trans[i], trans[j])
+				}
+			}()
+		}
+		wg.Wait()
+	}
+	da, db := denseOf(Da), denseOf(Db)
+	dt := make([]float64, n*n)
+	for k := range dt {
+		dt[k] = da[k] + db[k]
+	}
+	q := make([]float64, len(pairs))
+	qmax := 0.0
+	for k, pd := range pairs {
+		q[k] = bounds.Schwarz(pd.i, pd.j)
+		qmax = math.Max(qmax, q[k])
+	}
+	acc := make([][]float64, numGradChunks)
+	var next atomic.Int64
+	var wg sync.WaitGroup
+	for t := 0; t < min(threads, numGradChunks); t++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			w := &gradWork{}
+			for {
+				c := int(next.Add(1) - 1)
+				if c >= numGradChunks {
+					return
+				}
+				g := make([]float64, 3*natoms)
+				// the chunk's bra pairs, largest index (most ket pairs) first
+				for k := len(pairs) - 1 - c; k >= 0; k -= numGradChunks {
+					if q[k]*qmax < thr {
+						continue
+					}
+					for l := 0; l <= k; l++ {
+						if q[k]*q[l] < thr {
+							continue
+						}
+						quartetGrad(mb, pairs[k], pairs[l], k == l, q[k]*q[l], thr, coulomb, exchange, dt, da, db, n, w, g)
+					}
+				}
+				acc[c] = g
+			}
+		}()
+	}
+	wg.Wait()
+	out := make([]float64, 3*natoms)
+	for _, g := range acc {
+		for k, v := range g {
+			out[k] += v
+		}
+	}
+	return out, nil
+}
+
+func denseOf(m *mat.SymDense) []float64 {
+	n := m.SymmetricDim()
+	out := make([]float64, n*n)
+	for i := 0; i < n; i++ {
+		for j := i; j < n; j++ {
+			v := m.At(i, j)
+			out[i*n+j], out[j*n+i] = v, v
+		}
+	}
+	return out
+}
+
+// quartetGrad adds the gradient contribution of the unique shell quartet
+// (P|Q), P ≥ Q, to g.
+func quartetGrad(mb *basis.Molecular, P, Q *dPair, same bool, bound, thr, cJ, cK float64, dt, da, db []float64, n int, w *gradWork, g []float64) {
+	aA, aB, aC, aD := P.atomA, P.atomB, Q.atomA, Q.atomB
+	if aA == aB && aB == aC && aC == aD {
+		return
+	}
+	oi, oj, ok, ol := mb.Offsets[P.i], mb.Offsets[P.j], mb.Offsets[Q.i], mb.Offsets[Q.j]
+	deg := 1.0
+	if P.i != P.j {
+		deg *= 2
+	}
+	if Q.i != Q.j {
+		deg *= 2
+	}
+	if !same {
+		deg *= 2
+	}
+	hJ, qK := 0.5*cJ*deg, 0.25*cK*deg
+	w.g = grow(w.g, P.nf*Q.nf)
+	G := w.g
+	gmax := 0.0
+	for a := 0; a < P.nfa; a++ {
+		mu := oi + a
+		for b := 0; b < P.nfb; b++ {
+			nu := oj + b
+			dmn := dt[mu*n+nu]
+			row := G[(a*P.nfb+b)*Q.nf:]
+			for c := 0; c < Q.nfa; c++ {
+				la := ok + c
+				for d := 0; d < Q.nfb; d++ {
+					si := ol + d
+					v := hJ * dmn * dt[la*n+si]
+					if cK != 0 {
+						v -= qK * (da[mu*n+la]*da[nu*n+si] + da[mu*n+si]*da[nu*n+la] + db[mu*n+la]*db[nu*n+si] + db[mu*n+si]*db[nu*n+la])
+					}
+					row[c*Q.nfb+d] = v
+					gmax = math.Max(gmax, math.Abs(v))
+				}
+			}
+		}
+	}
+	if bound*gmax < thr {
+		return
+	}
+	add := func(atom int, v []float64) {
+		for d := 0; d < 3; d++ {
+			g[3*atom+d] += v[d]
+		}
+	}
+	ketSide := func() [6]float64 {
+		w.gt = grow(w.gt, P.nf*Q.nf)
+		gt := w.gt
+		for f := 0; f < P.nf; f++ {
+			for h := 0; h < Q.nf; h++ {
+				gt[h*P.nf+f] = G[f*Q.nf+h]
+			}
+		}
+		return sideGrad(Q, P, gt, w)
+	}
+	switch {
+	case same:
+		// (P|P): Γ is symmetric under bra–ket exchange, so the ket
+		// centres contribute what the bra centres do
+		b := sideGrad(P, Q, G, w)
+		for k := range b {
+			b[k] *= 2
+		}
+		add(aA, b[:3])
+		add(aB, b[3:])
+	case aC == aD:
+		b := sideGrad(P, Q, G, w)
+		add(aA, b[:3])
+		add(aB, b[3:])
+		add(aC, []float64{-b[0] - b[3], -b[1] - b[4], -b[2] - b[5]})
+	case aA == aB:
+		k := ketSide()
+		add(aC, k[:3])
+		add(aD, k[3:])
+		add(aA, []float64{-k[0] - k[3], -k[1] - k[4], -k[2] - k[5]})
+	default:
+		b := sideGrad(P, Q, G, w)
+		add(aA, b[:3])
+		add(aB, b[3:])
+		k := ketSide()
+		add(aC, k[:3])
+		add(aD, k[3:])
+	}
+}
