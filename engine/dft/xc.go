@@ -3,6 +3,7 @@ package dft
 import (
 	"fmt"
 	"math"
+	"runtime"
 	"sync"
 
 	"gonum.org/v1/gonum/floats"
@@ -30,14 +31,15 @@ type XC struct {
 }
 
 // NewXC prepares the XC integration of a functional (see NewFunctional for
-// the definitions accepted) for a basis on a molecule. threads < 1 means 1.
+// the definitions accepted) for a basis on a molecule. threads < 1 means
+// all cores; the results do not depend on it.
 func NewXC(mol *molecule.Molecule, mb *basis.Molecular, functionalDef string, spec GridSpec, threads int) (*XC, error) {
 	fn, err := NewFunctional(functionalDef)
 	if err != nil {
 		return nil, err
 	}
 	if threads < 1 {
-		threads = 1
+		threads = runtime.NumCPU()
 	}
 	g, err := NewGrid(mol, spec, threads)
 	if err != nil {
