@@ -93,6 +93,9 @@ func pow[G grad](a dual[G], p float64) dual[G] {
 	case 8.0 / 3:
 		c := math.Cbrt(a.v)
 		f = a.v * a.v * c * c
+	case -5.0 / 3:
+		c := math.Cbrt(a.v)
+		f = 1 / (a.v * c * c)
 	case -11.0 / 3:
 		c := math.Cbrt(a.v)
 		f = 1 / (a.v * a.v * a.v * c * c)

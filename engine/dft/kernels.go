@@ -222,8 +222,16 @@ func lypC[G grad](v *spinVars[G]) dual[G] {
 	rho := add(v.ra, v.rb)
 	rm13 := pow(rho, -1.0/3)
 	den := addc(scale(d, rm13), 1) // 1 + dρ^{-1/3}
-	omega := div(mul(exp(scale(-c, rm13)), pow(rho, -11.0/3)), den)
 	delta := add(scale(c, rm13), div(scale(d, rm13), den))
+	if v.ra == v.rb && v.saa == v.sab && v.sab == v.sbb {
+		// closed shell (ρα = ρβ = ρ/2, all σ = |∇ρ|²/4): the same formula
+		// reduces to −aρ/(1+dρ^{-1/3}) − ab ωρ² [C_F ρ^{8/3} − (3+7δ)σ/72]
+		sig := scale(4, v.saa)
+		wr2 := div(mul(exp(scale(-c, rm13)), pow(rho, -5.0/3)), den) // ωρ²
+		br := sub(scale(cf, pow(rho, 8.0/3)), scale(1.0/72, mul(addc(scale(7, delta), 3), sig)))
+		return sub(scale(-a, div(rho, den)), scale(a*b, mul(wr2, br)))
+	}
+	omega := div(mul(exp(scale(-c, rm13)), pow(rho, -11.0/3)), den)
 	rab := mul(v.ra, v.rb)
 	sig := add(add(v.saa, v.sbb), scale(2, v.sab)) // |∇ρ|²
 	sab2 := add(v.saa, v.sbb)
