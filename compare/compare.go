@@ -658,7 +658,7 @@ var subscript = map[string]string{"xx": "xx", "yy": "yy", "zz": "zz", "xy": "xy"
 func atomLabel(m *RefMolecule, idx []int) string {
 	var parts []string
 	for _, i := range idx {
-		parts = append(parts, fmt.Sprintf("%s%d", m.Atoms[i], i))
+		parts = append(parts, fmt.Sprintf("%s%d", m.Atoms[i], i+1))
 	}
 	return strings.Join(parts, "+")
 }
@@ -669,9 +669,9 @@ func quantityLabel(e *Entry) string {
 	m := &e.Molecule
 	switch q.Kind {
 	case KindBondLength:
-		return fmt.Sprintf("r(%s%d–%s%d)", m.Atoms[q.Atoms[0]], q.Atoms[0], m.Atoms[q.Atoms[1]], q.Atoms[1])
+		return fmt.Sprintf("r(%s%d–%s%d)", m.Atoms[q.Atoms[0]], q.Atoms[0]+1, m.Atoms[q.Atoms[1]], q.Atoms[1]+1)
 	case KindAngle:
-		return fmt.Sprintf("∠(%s%d–%s%d–%s%d)", m.Atoms[q.Atoms[0]], q.Atoms[0], m.Atoms[q.Atoms[1]], q.Atoms[1], m.Atoms[q.Atoms[2]], q.Atoms[2])
+		return fmt.Sprintf("∠(%s%d–%s%d–%s%d)", m.Atoms[q.Atoms[0]], q.Atoms[0]+1, m.Atoms[q.Atoms[1]], q.Atoms[1]+1, m.Atoms[q.Atoms[2]], q.Atoms[2]+1)
 	case KindDipoleNorm:
 		return "|μ|"
 	case KindDipoleAxis:
