@@ -177,3 +177,37 @@ func TestIncrementalJK(t *testing.T) {
 		}
 	}
 }
+
+func TestElectronsPerL(t *testing.T) {
+	// Ground-state configurations of the neutral atoms (standard periodic
+	// table, common knowledge, no source).
+	cases := map[int][5]float64{
+		1:  {1},         // H 1s1
+		6:  {4, 2},      // C 1s2 2s2 2p2
+		10: {4, 6},      // Ne
+		19: {7, 12},     // K [Ar] 4s1
+		21: {8, 12, 1},  // Sc [Ar] 3d1 4s2
+		24: {7, 12, 5},  // Cr [Ar] 3d5 4s1
+		26: {8, 12, 6},  // Fe [Ar] 3d6 4s2
+		29: {7, 12, 10}, // Cu [Ar] 3d10 4s1
+		36: {8, 18, 10}, // Kr
+	}
+	for z, want := range cases {
+		if got := electronsPerL(z); got != want {
+			t.Errorf("Z=%d: %v, want %v", z, got, want)
+		}
+	}
+	// Carbon-like orbital pattern: the p set takes the two p electrons even
+	// though an s orbital lies below it.
+	eps := []float64{-11, -0.7, -0.5, -0.4, -0.4, -0.4, 0.2}
+	occ := configOccupations(eps, 6)
+	want := []float64{2, 2, 0, 2.0 / 3, 2.0 / 3, 2.0 / 3, 0}
+	for i := range want {
+		if occ == nil || math.Abs(occ[i]-want[i]) > 1e-14 {
+			t.Fatalf("occupations %v, want %v", occ, want)
+		}
+	}
+	if configOccupations([]float64{-1, -0.5, -0.5}, 2) != nil {
+		t.Error("a degenerate pair (no l has two functions) was accepted")
+	}
+}

@@ -96,7 +96,11 @@ func atomicSCF(sys *system, nelec int) (*mat.SymDense, error) {
 		if err != nil {
 			return nil, err
 		}
-		return densityFrom(orb.ao, shellOccupations(orb.eps, float64(nelec))), nil
+		occ := configOccupations(orb.eps, nelec)
+		if occ == nil {
+			occ = shellOccupations(orb.eps, float64(nelec))
+		}
+		return densityFrom(orb.ao, occ), nil
 	}
 	d, err := build(orth.toOrth(sys.h))
 	if err != nil {
@@ -125,6 +129,69 @@ func atomicSCF(sys *system, nelec int) (*mat.SymDense, error) {
 		}
 	}
 	return d, nil
+}
+
+// configOccupations occupies the orbitals of a spherical atom by the
+// ground-state configuration of the neutral atom with nelec electrons: the
+// orbitals come in degenerate sets of 2l+1, which identifies l; for each l
+// the sets are filled in order of energy with that l's electron count, the
+// last set sharing the remainder equally. It returns nil when the orbitals
+// do not show that pattern or the basis lacks orbitals of some l, and the
+// caller then fills by energy alone.
+func configOccupations(eps []float64, nelec int) []float64 {
+	need := electronsPerL(nelec)
+	occ := make([]float64, len(eps))
+	for i := 0; i < len(eps); {
+		j := i + 1
+		for j < len(eps) && eps[j]-eps[i] < sadDegeneracyEh {
+			j++
+		}
+		g := j - i
+		if g%2 == 0 || g > 9 {
+			return nil
+		}
+		l := (g - 1) / 2
+		if left := need[l]; left > 0 {
+			w := math.Min(2, left/float64(g))
+			for k := i; k < j; k++ {
+				occ[k] = w
+			}
+			need[l] -= w * float64(g)
+		}
+		i = j
+	}
+	for _, left := range need {
+		if left > 1e-12 {
+			return nil
+		}
+	}
+	return occ
+}
+
+// electronsPerL counts the electrons of each angular momentum (s, p, d, f,
+// g) in the ground-state configuration of the neutral atom with z
+// electrons: Madelung (n+l, n) order, with the 3d⁵4s¹ and 3d¹⁰4s¹
+// exceptions of Cr and Cu.
+func electronsPerL(z int) [5]float64 {
+	var n [5]float64
+	switch z {
+	case 24: // [Ar] 3d5 4s1
+		return [5]float64{7, 12, 5}
+	case 29: // [Ar] 3d10 4s1
+		return [5]float64{7, 12, 10}
+	}
+	left := z
+	for sum := 1; left > 0; sum++ {
+		for l := (sum - 1) / 2; l >= 0 && left > 0; l-- {
+			if sum-l <= l || l > 4 { // principal quantum number n = sum − l must exceed l
+				continue
+			}
+			k := min(left, 2*(2*l+1))
+			n[l] += float64(k)
+			left -= k
+		}
+	}
+	return n
 }
 
 // shellOccupations fills orbitals (energies ascending) with nelec electrons,

@@ -35,9 +35,12 @@
 // densities: for each distinct element of the molecule a spherically
 // averaged, spin-restricted atomic SCF of the neutral atom is run in the
 // molecule's own basis functions on that atom (same integrals, a one-atom
-// basis), with fractional occupation: orbitals are filled in order of
-// energy, and a degenerate set that is only partly filled shares its
-// electrons equally, which keeps the atomic density spherical. The atomic
+// basis), with fractional occupation by the atom's ground-state
+// configuration: the orbitals of a spherical atom come in degenerate sets
+// of 2l+1, each l's electrons (Madelung order; Cr 3d⁵4s¹, Cu 3d¹⁰4s¹) fill
+// that l's sets in order of energy, and a partly filled set shares its
+// electrons equally, which keeps the atomic density spherical (when the
+// pattern is not found, the orbitals are filled by energy alone). The atomic
 // densities form a block-diagonal molecular density, scaled to the
 // molecule's electron count (for UHF/ROHF: Dα and Dβ are this density
 // scaled to Nα and Nβ electrons). The first iteration builds the Fock

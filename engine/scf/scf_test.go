@@ -219,3 +219,18 @@ func TestLinearDependence(t *testing.T) {
 		t.Logf("%s: E = %.8f, dropped %d, %d iterations", guess, r.Energy, r.DroppedFunctions, len(r.Iterations))
 	}
 }
+
+// TestTransitionMetalGuess: quartet FeH (6-31G, R = 2.9 a0) from the atomic
+// guess. Filling the atomic orbitals by energy alone gave iron a 4p⁶4s²
+// density from which UHF stalled; with the 3d⁶4s² configuration both UHF
+// and ROHF converge, and UHF lies below ROHF (variational freedom; common
+// practice, no source).
+func TestTransitionMetalGuess(t *testing.T) {
+	m, mb := build(t, "6-31g", "", 0, 4, molecule.MustAtom("Fe", 0, 0, 0), molecule.MustAtom("H", 0, 0, 2.9))
+	u := mustRun(t, m, mb, Options{Reference: "uhf", MaxIter: 60})
+	r := mustRun(t, m, mb, Options{Reference: "rohf", MaxIter: 60})
+	if !(u.Energy < r.Energy) || !(u.S2 >= 3.75) {
+		t.Errorf("UHF E = %.8f (<S²> %.4f), ROHF E = %.8f", u.Energy, u.S2, r.Energy)
+	}
+	t.Logf("UHF %.8f in %d iterations, <S²> %.4f; ROHF %.8f in %d", u.Energy, len(u.Iterations), u.S2, r.Energy, len(r.Iterations))
+}
