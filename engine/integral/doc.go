@@ -14,8 +14,12 @@
 // spherical functions of each shell), so a quartet is two small matrix
 // contractions around R per primitive quartet.
 //
+// Shells on one centre with the same l and exponents (the general
+// contractions of correlation-consistent sets, e.g. 1s and 2s) are handled
+// together, so their primitive integrals are made once.
+//
 // Screening: primitive pairs with negligible prefactor (PrimitiveThreshold)
-// are dropped; shell quartets with Q_ij·Q_kl below the Schwarz threshold
+// and primitive quartets below PrimitiveQuartetThreshold are dropped; shell quartets with Q_ij·Q_kl below the Schwarz threshold
 // (DefaultSchwarzThreshold unless set) are skipped; J/K builds use the
 // 8-fold permutational symmetry of (ij|kl). The unique screened integrals
 // are stored when they fit the memory budget; otherwise each build

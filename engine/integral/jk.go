@@ -36,13 +36,14 @@ type incore struct {
 
 // Stats reports what the two-electron engine has done.
 type Stats struct {
-	Shells, ShellPairs   int
+	Shells, ShellPairs   int // ShellPairs counts pairs of shell groups (shells sharing centre, l and exponents)
 	SchwarzThreshold     float64
 	UniqueQuartets       int64 // Schwarz-surviving unique shell quartets
 	SchwarzScreened      int64 // unique shell quartets dropped by the Schwarz test
 	InCore               bool  // integrals stored (true) or recomputed per build
 	StoredIntegrals      int64
 	StoredBytes          int64
+	UniqueIntegralBytes  int64 // what storing all kept quartets would take
 	QuartetsComputed     int64 // shell quartets evaluated so far (all calls)
 	DensityScreened      int64 // quartets skipped by density screening (direct mode)
 	JKBuilds             int64
@@ -52,9 +53,14 @@ type Stats struct {
 	SchwarzScreenedShare float64
 }
 
-// Stats returns counters for the record. Quartet counts of the J/K build
-// are known after the first JK call.
+// Stats returns counters for the record (the screening and in-core
+// decision are made on the first call of Stats or JK).
 func (e *ERI) Stats() Stats {
+	e.jkMu.Lock()
+	if e.store == nil {
+		e.setup()
+	}
+	e.jkMu.Unlock()
 	s := Stats{
 		Shells: len(e.mb.Shells), ShellPairs: len(e.pairs), SchwarzThreshold: e.thr,
 		QuartetsComputed: e.stats.computed.Load(), DensityScreened: e.stats.densitySkipped.Load(),
@@ -63,6 +69,7 @@ func (e *ERI) Stats() Stats {
 	}
 	if st := e.store; st != nil {
 		s.UniqueQuartets, s.SchwarzScreened, s.InCore = st.unique, st.screened, st.inCore
+		s.UniqueIntegralBytes = 8 * st.stored
 		if st.inCore {
 			s.StoredIntegrals = st.stored
 			s.StoredBytes = 8 * st.stored

@@ -3,6 +3,7 @@ package integral
 import (
 	"math"
 	"math/rand"
+	"runtime"
 	"testing"
 
 	"gonum.org/v1/gonum/mat"
@@ -133,4 +134,37 @@ func TestNewERIErrors(t *testing.T) {
 	if _, err := NewERI(h, Options{}); err == nil {
 		t.Error("an h shell was accepted")
 	}
+}
+
+// A job of about 300 functions does not fit the default budget and runs
+// direct; its J/K work space stays far below 2 GiB.
+func TestLargeJobGoesDirect(t *testing.T) {
+	if testing.Short() {
+		t.Skip("sets up a 264-function basis")
+	}
+	mb, _ := buildBasis(t, "cc-pvtz", "", benzene()...)
+	e, err := NewERI(mb, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	st := e.Stats()
+	if st.InCore || st.UniqueIntegralBytes <= DefaultMemoryBudgetBytes {
+		t.Fatalf("%d functions: in core %v, unique integrals %d bytes", mb.NBasis, st.InCore, st.UniqueIntegralBytes)
+	}
+	// Set up the J/K work space for two densities (without the long
+	// direct build) and measure the heap.
+	n := mb.NBasis
+	for _, c := range e.store.chunks {
+		c.jAcc = resize(c.jAcc, 2, n*n)
+		c.kAcc = resize(c.kAcc, 2, n*n)
+	}
+	var ms runtime.MemStats
+	runtime.GC()
+	runtime.ReadMemStats(&ms)
+	runtime.KeepAlive(e)
+	if ms.HeapAlloc > 1<<30 {
+		t.Errorf("heap after set-up %d bytes", ms.HeapAlloc)
+	}
+	t.Logf("heap in use %.1f MiB", float64(ms.HeapAlloc)/(1<<20))
+	t.Logf("%d functions: %v", mb.NBasis, st)
 }
