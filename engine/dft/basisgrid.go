@@ -18,12 +18,38 @@ type gridShell struct {
 	cartNorm []float64
 	c2s      [][]float64 // nil for Cartesian shells
 	extent   float64     // beyond this distance values and gradients are below the cutoff
+	atom     int
+	// expIdx[k] indexes primitive k's exponent in the atom's list of
+	// distinct exponents (general contractions share them)
+	expIdx []int
 }
 
-func prepareShells(mb *basis.Molecular, cut float64) []gridShell {
+// atomExps lists the distinct exponents of each atom's shells.
+type atomExps [][]float64
+
+func prepareShells(mb *basis.Molecular, cut float64) ([]gridShell, atomExps) {
 	out := make([]gridShell, len(mb.Shells))
+	nat := 0
+	for _, sh := range mb.Shells {
+		nat = max(nat, sh.Atom+1)
+	}
+	ae := make(atomExps, nat)
 	for i, sh := range mb.Shells {
-		g := gridShell{l: sh.L, exps: sh.Exponents, coefs: sh.Coefs, centre: sh.Centre, offset: mb.Offsets[i], nfunc: sh.NFunc()}
+		g := gridShell{l: sh.L, exps: sh.Exponents, coefs: sh.Coefs, centre: sh.Centre, offset: mb.Offsets[i], nfunc: sh.NFunc(), atom: sh.Atom}
+		for _, a := range sh.Exponents {
+			k := -1
+			for u, b := range ae[sh.Atom] {
+				if a == b {
+					k = u
+					break
+				}
+			}
+			if k < 0 {
+				k = len(ae[sh.Atom])
+				ae[sh.Atom] = append(ae[sh.Atom], a)
+			}
+			g.expIdx = append(g.expIdx, k)
+		}
 		g.cart = basis.CartComponents(sh.L)
 		cmax := 0.0
 		for _, c := range g.cart {
@@ -47,7 +73,16 @@ func prepareShells(mb *basis.Molecular, cut float64) []gridShell {
 		g.extent = shellExtent(sh.L, sh.Exponents, sh.Coefs, cmax, cut)
 		out[i] = g
 	}
-	return out
+	return out, ae
+}
+
+// maxDistinct is the largest number of distinct exponents on one atom.
+func (ae atomExps) maxDistinct() int {
+	m := 0
+	for _, e := range ae {
+		m = max(m, len(e))
+	}
+	return m
 }
 
 // shellExtent is the largest r at which a bound on the shell's functions
@@ -102,29 +137,57 @@ func shellExtent(l int, exps, coefs []float64, cmax, cut float64) float64 {
 	return hi
 }
 
+// evalWork is scratch space for evalShells.
+type evalWork struct {
+	cart []float64 // 4·NCart(lmax)
+	etab []float64 // npts × distinct exponents of one atom
+}
+
+func newEvalWork(lmax, npts, distinct int) *evalWork {
+	return &evalWork{cart: make([]float64, 4*basis.NCart(lmax)), etab: make([]float64, npts*distinct)}
+}
+
 // evalShells writes the values (and gradients when grad != nil) of the
 // functions of the listed shells at points (x, y, z) into row-major
 // npts × nloc arrays, the shells' functions laid out consecutively in list
-// order. work must hold at least 4·NCart(lmax) values.
-func evalShells(shells []gridShell, list []int, x, y, z []float64, nloc int, phi []float64, grad [3][]float64, work []float64) {
+// order. The Gaussians e^{−α r²} are computed once per atom and distinct
+// exponent.
+func evalShells(shells []gridShell, ae atomExps, list []int, x, y, z []float64, nloc int, phi []float64, grad [3][]float64, ew *evalWork) {
 	npts := len(x)
 	col := 0
 	withGrad := grad[0] != nil
+	work := ew.cart
+	curAtom := -1
+	var nu int
 	for _, si := range list {
 		s := &shells[si]
+		if s.atom != curAtom {
+			curAtom = s.atom
+			ex := ae[curAtom]
+			nu = len(ex)
+			for p := 0; p < npts; p++ {
+				dx, dy, dz := x[p]-s.centre[0], y[p]-s.centre[1], z[p]-s.centre[2]
+				r2 := dx*dx + dy*dy + dz*dz
+				row := ew.etab[p*nu : (p+1)*nu]
+				for u, a := range ex {
+					if a*r2 > 40 { // e^{−40} ≈ 4e-18: far below any cutoff
+						row[u] = 0
+					} else {
+						row[u] = math.Exp(-a * r2)
+					}
+				}
+			}
+		}
 		nc := len(s.cart)
 		cv := work[:nc]
 		cgx, cgy, cgz := work[nc:2*nc], work[2*nc:3*nc], work[3*nc:4*nc]
 		var px, py, pz [8]float64 // powers 0..l (l ≤ 6)
 		for p := 0; p < npts; p++ {
 			dx, dy, dz := x[p]-s.centre[0], y[p]-s.centre[1], z[p]-s.centre[2]
-			r2 := dx*dx + dy*dy + dz*dz
 			R, dR := 0.0, 0.0 // radial part and its derivative with respect to r²
+			et := ew.etab[p*nu : (p+1)*nu]
 			for k, a := range s.exps {
-				if a*r2 > 40 { // e^{−40} ≈ 4e-18: far below any cutoff
-					continue
-				}
-				e := s.coefs[k] * math.Exp(-a*r2)
+				e := s.coefs[k] * et[s.expIdx[k]]
 				R += e
 				dR -= a * e
 			}

@@ -182,7 +182,7 @@ func TestBasisNormOnGrid(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		shells := prepareShells(mb, 0)
+		shells, ae := prepareShells(mb, 0)
 		all := make([]int, len(shells))
 		for i := range all {
 			all[i] = i
@@ -190,9 +190,9 @@ func TestBasisNormOnGrid(t *testing.T) {
 		n := mb.NBasis
 		diag := make([]float64, n)
 		phi := make([]float64, n)
-		sw := make([]float64, 4*basis.NCart(4))
+		sw := newEvalWork(4, 1, ae.maxDistinct())
 		for p := range g.W {
-			evalShells(shells, all, g.X[p:p+1], g.Y[p:p+1], g.Z[p:p+1], n, phi, [3][]float64{}, sw)
+			evalShells(shells, ae, all, g.X[p:p+1], g.Y[p:p+1], g.Z[p:p+1], n, phi, [3][]float64{}, sw)
 			for k := range phi {
 				diag[k] += g.W[p] * phi[k] * phi[k]
 			}
@@ -213,25 +213,25 @@ func TestBasisGradients(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	shells := prepareShells(mb, 0)
+	shells, ae := prepareShells(mb, 0)
 	all := make([]int, len(shells))
 	for i := range all {
 		all[i] = i
 	}
 	n := mb.NBasis
-	sw := make([]float64, 4*basis.NCart(4))
+	sw := newEvalWork(4, 1, ae.maxDistinct())
 	phi := make([]float64, n)
 	grad := [3][]float64{make([]float64, n), make([]float64, n), make([]float64, n)}
 	p0 := [3]float64{0.31, -0.52, 0.27}
-	evalShells(shells, all, p0[:1], p0[1:2], p0[2:3], n, phi, grad, sw)
+	evalShells(shells, ae, all, p0[:1], p0[1:2], p0[2:3], n, phi, grad, sw)
 	const h = 1e-5
 	up, dn := make([]float64, n), make([]float64, n)
 	for d := 0; d < 3; d++ {
 		a, b := p0, p0
 		a[d] += h
 		b[d] -= h
-		evalShells(shells, all, a[:1], a[1:2], a[2:3], n, up, [3][]float64{}, sw)
-		evalShells(shells, all, b[:1], b[1:2], b[2:3], n, dn, [3][]float64{}, sw)
+		evalShells(shells, ae, all, a[:1], a[1:2], a[2:3], n, up, [3][]float64{}, sw)
+		evalShells(shells, ae, all, b[:1], b[1:2], b[2:3], n, dn, [3][]float64{}, sw)
 		for k := 0; k < n; k++ {
 			fd := (up[k] - dn[k]) / (2 * h)
 			if math.Abs(fd-grad[d][k]) > 1e-6*math.Max(1, math.Abs(fd)) {

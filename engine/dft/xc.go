@@ -19,6 +19,7 @@ type XC struct {
 	fn      *Functional
 	grid    *Grid
 	shells  []gridShell
+	aexps   atomExps
 	nbf     int
 	threads int
 	// per batch: significant shells and their functions
@@ -52,7 +53,7 @@ func NewXC(mol *molecule.Molecule, mb *basis.Molecular, functionalDef string, sp
 		}
 		x.lmax = max(x.lmax, sh.L)
 	}
-	x.shells = prepareShells(mb, spec.BasisCut)
+	x.shells, x.aexps = prepareShells(mb, spec.BasisCut)
 	x.blist = make([][]int, len(g.batches))
 	x.bfuncs = make([][]int, len(g.batches))
 	for b, bt := range g.batches {
@@ -209,7 +210,7 @@ type work struct {
 	e, vrho    []float64
 	vsigma     []float64
 	gra, grb   [3][]float64 // density gradients per point
-	sw         []float64
+	ew         *evalWork
 }
 
 func (x *XC) newWork(restricted bool) *work {
@@ -223,7 +224,7 @@ func (x *XC) newWork(restricted bool) *work {
 		dloc: make([]float64, nf*nf), vloc: make([]float64, nf*nf),
 		rho: make([]float64, 2*m), sigma: make([]float64, 3*m),
 		e: make([]float64, m), vrho: make([]float64, 2*m), vsigma: make([]float64, 3*m),
-		sw: make([]float64, 4*basis.NCart(x.lmax)),
+		ew: newEvalWork(x.lmax, m, x.aexps.maxDistinct()),
 	}
 	if !restricted {
 		w.xb, w.zb = make([]float64, m*nf), make([]float64, m*nf)
@@ -338,7 +339,7 @@ func (x *XC) batch(b int, da, db []float64, acc *accum, w *work) error {
 	if gga {
 		grad = w.grad
 	}
-	evalShells(x.shells, x.blist[b], X, Y, Z, nl, w.phi, grad, w.sw)
+	evalShells(x.shells, x.aexps, x.blist[b], X, Y, Z, nl, w.phi, grad, w.ew)
 	cut := x.grid.Spec.DensityCut
 	if db == nil {
 		x.density(da, funcs, np, nl, w, w.xa, w.rho, 1, w.gra)
