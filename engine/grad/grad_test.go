@@ -56,7 +56,7 @@ type gradCase struct {
 
 // checkAgainstFD compares the analytic gradient with central differences
 // of SCF energies, E(x+h) − E(x−h) over 2h with h = 5e-4 bohr (truncation
-// error ~h²/6·E''' ≈ 1e-8 Eh/bohr here; common practice, no source), and
+// error ~h²/6·E”' ≈ 1e-8 Eh/bohr here; common practice, no source), and
 // checks that the components sum to zero along each axis.
 func checkAgainstFD(t *testing.T, c gradCase) {
 	t.Helper()
