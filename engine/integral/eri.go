@@ -615,6 +615,25 @@ func (e *ERI) quartetMD(A, B *pairData, w *work, out []float64) {
 				pref *= B.w[c]
 			}
 			hermiteR(L, alpha, pq, f, pref, r, tmp)
+			if B.nh == 1 {
+				// s–s ket: one function pair, Hermite order 0, so
+				// X[h] = R_h · E^c_000.
+				ek0 := B.esK[c]
+				if single {
+					for _, h := range A.usedH {
+						x[h] += r[h] * ek0
+					}
+				} else {
+					for m, wm := range B.w[c*B.nm : (c+1)*B.nm] {
+						s := wm * ek0
+						xm := x[m*blockX : (m+1)*blockX]
+						for _, h := range A.usedH {
+							xm[h] += s * r[h]
+						}
+					}
+				}
+				continue
+			}
 			ek := B.esK[c*B.nnz : (c+1)*B.nnz]
 			dst := z
 			if single {
