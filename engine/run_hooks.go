@@ -7,6 +7,7 @@ import (
 	"gonum.org/v1/gonum/mat"
 
 	"moltrail/engine/basis"
+	"moltrail/engine/grad"
 	"moltrail/engine/molecule"
 	"moltrail/engine/mp2"
 	"moltrail/engine/scf"
@@ -89,6 +90,40 @@ func correlate(job *Job, mol *molecule.Molecule, mb *basis.Molecular, sr *scf.Re
 }
 
 // gradient returns the energy and analytic nuclear gradient at mol.
+// SCF levels (HF, DFT) only; the XC part of a DFT gradient leaves out the
+// derivatives of the grid partition weights (see engine/grad).
 func gradient(job *Job, mol *molecule.Molecule, set *basis.Set, o RunOptions) (float64, []float64, error) {
-	return 0, nil, fmt.Errorf("analytic gradients are not available in this build yet; use the finite-difference gradient method")
+	info := Methods[job.Method]
+	if info.Family != "hf" && info.Family != "dft" {
+		return 0, nil, fmt.Errorf("method %s: analytic gradients cover the SCF levels (HF, DFT) only; use the finite-difference gradient method", job.Method)
+	}
+	mb, err := basis.Build(set, mol, job.Basis.Angular)
+	if err != nil {
+		return 0, nil, err
+	}
+	so := scfOptions(job, o)
+	var xcg grad.XCGradient
+	if info.Family == "dft" {
+		xc, err := newXC(job, mol, mb, o)
+		if err != nil {
+			return 0, nil, err
+		}
+		g, ok := xc.(grad.XCGradient)
+		if !ok {
+			return 0, nil, fmt.Errorf("method %s: the exchange–correlation code of this build has no nuclear gradient; use the finite-difference gradient method", job.Method)
+		}
+		so.XC, xcg = xc, g
+	}
+	sr, err := scf.Run(mol, mb, so)
+	if err != nil {
+		return 0, nil, err
+	}
+	if !sr.Converged {
+		return 0, nil, errNotConverged{fmt.Sprintf("SCF did not converge in %d iterations", len(sr.Iterations))}
+	}
+	g, err := grad.SCF(mol, mb, sr, grad.Options{Threads: o.threads(), XC: xcg})
+	if err != nil {
+		return 0, nil, err
+	}
+	return sr.Energy, g, nil
 }
