@@ -26,8 +26,9 @@ type GridSpec struct {
 	Pruning string
 	// DensityCut: grid points whose total density is below this are skipped.
 	DensityCut float64
-	// BasisCut: a shell is left out of a batch of points where all its
-	// functions and gradients are below this.
+	// BasisCut: a shell is left out of a batch of points where a bound on
+	// all its functions and gradients is below this, and function values
+	// below it count as zero in the density and potential products.
 	BasisCut float64
 }
 

@@ -240,8 +240,11 @@ func (x *XC) newWork(restricted bool) *work {
 }
 
 // density computes X = Φ·D_loc and ρ_p = Σ X∘Φ, ∇ρ_p = 2 Σ X∘∇Φ.
+//
+// Function values below the basis cutoff are left out of the product.
 func (x *XC) density(d []float64, funcs []int, np, nl int, w *work, X []float64, rho []float64, rstride int, grho [3][]float64) {
 	n := x.nbf
+	cut := x.grid.Spec.BasisCut
 	for i, fi := range funcs {
 		for j, fj := range funcs {
 			w.dloc[i*nl+j] = d[fi*n+fj]
@@ -254,7 +257,7 @@ func (x *XC) density(d []float64, funcs []int, np, nl int, w *work, X []float64,
 			xr[k] = 0
 		}
 		for k, f := range w.phi[p*nl : (p+1)*nl] {
-			if f != 0 {
+			if math.Abs(f) > cut {
 				floats.AddScaled(xr, f, w.dloc[k*nl:(k+1)*nl])
 			}
 		}
@@ -281,8 +284,10 @@ func (x *XC) density(d []float64, funcs []int, np, nl int, w *work, X []float64,
 }
 
 // potential forms Z_pk = w_p (½ vρ_p φ_pk + G_p·∇φ_pk) and adds
-// Φᵀ Z + Zᵀ Φ to the upper triangle of v.
+// Φᵀ Z + Zᵀ Φ to the upper triangle of v (function values below the basis
+// cutoff are left out of the product).
 func (x *XC) potential(funcs []int, np, nl int, wts, vr []float64, vrStride int, G [3][]float64, Z []float64, work *work, v []float64) {
+	cut := x.grid.Spec.BasisCut
 	for p := 0; p < np; p++ {
 		a := 0.5 * wts[p] * vr[p*vrStride]
 		z := Z[p*nl : (p+1)*nl]
@@ -309,7 +314,7 @@ func (x *XC) potential(funcs []int, np, nl int, wts, vr []float64, vrStride int,
 	for p := 0; p < np; p++ {
 		z := Z[p*nl : (p+1)*nl]
 		for k, f := range work.phi[p*nl : (p+1)*nl] {
-			if f != 0 {
+			if math.Abs(f) > cut {
 				floats.AddScaled(vl[k*nl:(k+1)*nl], f, z)
 			}
 		}
