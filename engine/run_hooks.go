@@ -7,6 +7,7 @@ import (
 	"gonum.org/v1/gonum/mat"
 
 	"moltrail/engine/basis"
+	"moltrail/engine/dft"
 	"moltrail/engine/grad"
 	"moltrail/engine/molecule"
 	"moltrail/engine/mp2"
@@ -15,7 +16,15 @@ import (
 
 // newXC builds the exchange–correlation object of a DFT job.
 func newXC(job *Job, mol *molecule.Molecule, mb *basis.Molecular, o RunOptions) (scf.XC, error) {
-	return nil, fmt.Errorf("method %s: Kohn–Sham DFT is not available in this build yet", job.Method)
+	if job.Grid == nil {
+		return nil, fmt.Errorf("method %s needs an integration grid, but the job has none", job.Method)
+	}
+	xc, err := dft.NewXC(mol, mb, job.Functional, job.Grid.DFTGrid(), o.threads())
+	if err != nil {
+		return nil, fmt.Errorf("method %s: %v", job.Method, err)
+	}
+	o.logf("  %s: %s on %d grid points (%s grid)\n", job.Method, xc.Definition(), xc.Grid().NPoints(), job.Grid.Level)
+	return xc, nil
 }
 
 // correlate adds the MP2-family energy (and, with withProps, the relaxed

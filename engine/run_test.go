@@ -91,3 +91,34 @@ func TestRunOptimizeHF(t *testing.T) {
 		t.Errorf("angle = %.2f°", a)
 	}
 }
+
+func TestRunDFT(t *testing.T) {
+	// B3LYP records the functional definition and the integrated electron count.
+	j, err := NewJob(Request{Molecule: workedWater(), Method: "b3lyp", Basis: "sto-3g"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if j.Functional != "b3lyp(vwn-rpa)" || j.Grid == nil || j.Reference != "rks" {
+		t.Fatalf("job %+v", j)
+	}
+	r, err := Run(j, RunOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if r.Status != StatusConverged || r.XCHartree == nil || r.IntegratedElectrons == nil {
+		t.Fatalf("status %s %v", r.Status, r.Error)
+	}
+	if math.Abs(*r.IntegratedElectrons-10) > 1e-4 {
+		t.Errorf("integrated electrons %v", *r.IntegratedElectrons)
+	}
+	j5, _ := NewJob(Request{Molecule: workedWater(), Method: "b3lyp5", Basis: "sto-3g"})
+	r5, err := Run(j5, RunOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	// The two B3LYP definitions differ by roughly 1e-2 Eh for a first-row
+	// molecule (common practice, no source).
+	if d := math.Abs(r5.EnergyHartree - r.EnergyHartree); d < 1e-3 || d > 0.1 {
+		t.Errorf("B3LYP vs B3LYP5 differ by %g Eh", d)
+	}
+}
