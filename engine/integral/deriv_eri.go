@@ -66,6 +66,11 @@ type dPair struct {
 	kp           []float64 // c_a c_b exp(−μ R_AB²)/p
 	e            []float64 // [np][nf][nh0]
 	ed           []float64 // [np][6][nf][nh1]: ∂/∂A_x,y,z, ∂/∂B_x,y,z
+	// Schwarz-type size estimates of each primitive pair's distribution
+	// (b0) and of its centre derivatives (b1):
+	// |kp| sqrt(2π^{5/2}/sqrt(2p)) max|E|; b0max is the largest b0.
+	b0, b1 []float64
+	b0max  float64
 }
 
 func makeDPair(mb *basis.Molecular, i, j int, ta, tb []float64) *dPair {
@@ -166,11 +171,24 @@ func makeDPair(mb *basis.Molecular, i, j int, ta, tb []float64) *dPair {
 					}
 				}
 			}
-			dp.e = append(dp.e, transformHerm(ta, dp.nfa, nca, tb, dp.nfb, ncb, cart0, dp.nh0)...)
+			fin := transformHerm(ta, dp.nfa, nca, tb, dp.nfb, ncb, cart0, dp.nh0)
+			dp.e = append(dp.e, fin...)
+			m0, m1 := 0.0, 0.0
+			for _, v := range fin {
+				m0 = math.Max(m0, math.Abs(v))
+			}
 			for k := 0; k < 6; k++ {
 				blk := cartD[k*nca*ncb*dp.nh1 : (k+1)*nca*ncb*dp.nh1]
-				dp.ed = append(dp.ed, transformHerm(ta, dp.nfa, nca, tb, dp.nfb, ncb, blk, dp.nh1)...)
+				fd := transformHerm(ta, dp.nfa, nca, tb, dp.nfb, ncb, blk, dp.nh1)
+				for _, v := range fd {
+					m1 = math.Max(m1, math.Abs(v))
+				}
+				dp.ed = append(dp.ed, fd...)
 			}
+			sz := math.Abs(K/p) * math.Sqrt(twoPi52/math.Sqrt(2*p))
+			dp.b0 = append(dp.b0, sz*m0)
+			dp.b1 = append(dp.b1, sz*m1)
+			dp.b0max = math.Max(dp.b0max, sz*m0)
 			dp.p = append(dp.p, p)
 			dp.px = append(dp.px, P[0], P[1], P[2])
 			dp.kp = append(dp.kp, K/p)
@@ -232,9 +250,13 @@ func grow(b []float64, n int) []float64 {
 	return b[:n]
 }
 
+// primGradThreshold drops a primitive quartet of a gradient pass when
+// b1(bra) · b0(ket) · Σ|Γ| is below it.
+const primGradThreshold = 1e-14
+
 // sideGrad returns the derivatives of Σ Γ[f][g] (f∈P | g∈Q) with respect
-// to the two centres of P (A x, y, z, then B x, y, z).
-func sideGrad(P, Q *dPair, G []float64, w *gradWork) [6]float64 {
+// to the two centres of P (A x, y, z, then B x, y, z); gabs is Σ|Γ|.
+func sideGrad(P, Q *dPair, G []float64, gabs float64, w *gradWork) [6]float64 {
 	var out [6]float64
 	if P.np == 0 || Q.np == 0 {
 		return out
@@ -281,12 +303,19 @@ func sideGrad(P, Q *dPair, G []float64, w *gradWork) [6]float64 {
 	r, tmp, fb, rb := w.r, w.tmp, w.f, w.rb
 	sum, nph := herm.sum, herm.nPairH
 	for a := 0; a < P.np; a++ {
+		ba := P.b1[a] * gabs
+		if ba*Q.b0max < primGradThreshold {
+			continue
+		}
 		p := P.p[a]
 		pa := P.px[3*a : 3*a+3]
 		for k := range x {
 			x[k] = 0
 		}
 		for c := 0; c < Q.np; c++ {
+			if ba*Q.b0[c] < primGradThreshold {
+				continue
+			}
 			q := Q.p[c]
 			qc := Q.px[3*c : 3*c+3]
 			pq := [3]float64{pa[0] - qc[0], pa[1] - qc[1], pa[2] - qc[2]}
@@ -483,7 +512,7 @@ func quartetGrad(mb *basis.Molecular, P, Q *dPair, same bool, bound, thr, cJ, cK
 	hJ, qK := 0.5*cJ*deg, 0.25*cK*deg
 	w.g = grow(w.g, P.nf*Q.nf)
 	G := w.g
-	gmax := 0.0
+	gmax, gabs := 0.0, 0.0
 	for a := 0; a < P.nfa; a++ {
 		mu := oi + a
 		for b := 0; b < P.nfb; b++ {
@@ -500,6 +529,7 @@ func quartetGrad(mb *basis.Molecular, P, Q *dPair, same bool, bound, thr, cJ, cK
 					}
 					row[c*Q.nfb+d] = v
 					gmax = math.Max(gmax, math.Abs(v))
+					gabs += math.Abs(v)
 				}
 			}
 		}
@@ -520,20 +550,20 @@ func quartetGrad(mb *basis.Molecular, P, Q *dPair, same bool, bound, thr, cJ, cK
 				gt[h*P.nf+f] = G[f*Q.nf+h]
 			}
 		}
-		return sideGrad(Q, P, gt, w)
+		return sideGrad(Q, P, gt, gabs, w)
 	}
 	switch {
 	case same:
 		// (P|P): Γ is symmetric under bra–ket exchange, so the ket
 		// centres contribute what the bra centres do
-		b := sideGrad(P, Q, G, w)
+		b := sideGrad(P, Q, G, gabs, w)
 		for k := range b {
 			b[k] *= 2
 		}
 		add(aA, b[:3])
 		add(aB, b[3:])
 	case aC == aD:
-		b := sideGrad(P, Q, G, w)
+		b := sideGrad(P, Q, G, gabs, w)
 		add(aA, b[:3])
 		add(aB, b[3:])
 		add(aC, []float64{-b[0] - b[3], -b[1] - b[4], -b[2] - b[5]})
@@ -543,7 +573,7 @@ func quartetGrad(mb *basis.Molecular, P, Q *dPair, same bool, bound, thr, cJ, cK
 		add(aD, k[3:])
 		add(aA, []float64{-k[0] - k[3], -k[1] - k[4], -k[2] - k[5]})
 	default:
-		b := sideGrad(P, Q, G, w)
+		b := sideGrad(P, Q, G, gabs, w)
 		add(aA, b[:3])
 		add(aB, b[3:])
 		k := ketSide()
