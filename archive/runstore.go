@@ -71,6 +71,10 @@ func RunAndStore(dir string, req RunRequest, compute Computer) (*RunOutcome, err
 	if err != nil {
 		return nil, err
 	}
+	// A place that cannot take the record is refused before computing.
+	if err := checkDir(dir, false); err != nil {
+		return nil, err
+	}
 	code := CurrentCode()
 	out := &RunOutcome{}
 	lineage := append([]Link{}, req.Lineage...)

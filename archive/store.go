@@ -84,6 +84,9 @@ func Open(dir string, opt OpenOptions) (*Store, error) {
 	if dir == "" {
 		return nil, fmt.Errorf("archive directory name is empty")
 	}
+	if err := checkDir(dir, opt.ReadOnly); err != nil {
+		return nil, err
+	}
 	wait := opt.Wait
 	if wait == 0 {
 		wait = DefaultWait
@@ -96,6 +99,9 @@ func Open(dir string, opt OpenOptions) (*Store, error) {
 	deadline := time.Now().Add(wait)
 	said := false
 	for {
+		if err := checkTables(dir); err != nil {
+			return nil, err
+		}
 		db, err := badger.Open(badgerOptions(dir, opt.ReadOnly))
 		if err == nil {
 			s := &Store{db: db, dir: dir, readOnly: opt.ReadOnly}

@@ -1,0 +1,125 @@
+package archive
+
+import (
+	"encoding/binary"
+	"errors"
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+	"strings"
+)
+
+// ErrDamaged says the archive's files are damaged so that it cannot be
+// read safely.
+var ErrDamaged = errors.New("archive is damaged")
+
+// ErrNotArchive says the archive path names something that is not (and
+// cannot become) an archive: a plain file, or a directory of other files.
+var ErrNotArchive = errors.New("not an archive directory")
+
+// sentinelError is an error with its own wording that still matches a
+// sentinel under errors.Is.
+type sentinelError struct {
+	sentinel error
+	msg      string
+}
+
+func (e *sentinelError) Error() string { return e.msg }
+func (e *sentinelError) Unwrap() error { return e.sentinel }
+
+// checkDir refuses a path that cannot hold an archive before badger is
+// asked to open it: a plain file, or (for writing) a directory that is
+// neither empty nor an archive, which would otherwise fill with store
+// files next to someone's own.
+func checkDir(dir string, readOnly bool) error {
+	fi, err := os.Stat(dir)
+	if errors.Is(err, os.ErrNotExist) {
+		return nil
+	}
+	if err != nil {
+		return fmt.Errorf("archive %s cannot be opened: %v", dir, pathErr(err))
+	}
+	if !fi.IsDir() {
+		return &sentinelError{ErrNotArchive, fmt.Sprintf("archive %s is a file, not an archive directory", dir)}
+	}
+	if readOnly {
+		return nil
+	}
+	if _, err := os.Stat(filepath.Join(dir, "MANIFEST")); err == nil {
+		return nil
+	}
+	ents, err := os.ReadDir(dir)
+	if err != nil {
+		return fmt.Errorf("archive %s cannot be opened: %v", dir, pathErr(err))
+	}
+	if len(ents) > 0 {
+		return &sentinelError{ErrNotArchive, fmt.Sprintf("%s holds %d file(s) but no archive; give an empty or new directory for a new archive", dir, len(ents))}
+	}
+	return nil
+}
+
+// checkTables checks the footer of every table file (*.sst) in dir.
+// badger finds a table's index through two lengths stored at the end of
+// the file; when a truncated or overwritten file makes them point outside
+// the file, badger panics in a goroutine of its own, which no caller can
+// recover, so the bounds are checked here first. The index itself carries
+// a checksum that badger verifies.
+func checkTables(dir string) error {
+	ents, err := os.ReadDir(dir)
+	if err != nil {
+		return nil // badger reports unreadable directories itself
+	}
+	for _, e := range ents {
+		if e.IsDir() || !strings.HasSuffix(e.Name(), ".sst") {
+			continue
+		}
+		if what := tableFooterProblem(filepath.Join(dir, e.Name())); what != "" {
+			return &sentinelError{ErrDamaged, fmt.Sprintf("archive %s is damaged: table file %s %s; restore it from a copy or rebuild it from an export", dir, e.Name(), what)}
+		}
+	}
+	return nil
+}
+
+// tableFooterProblem says what is wrong with a table file's footer, or "".
+func tableFooterProblem(path string) string {
+	f, err := os.Open(path)
+	if err != nil {
+		return "cannot be read: " + pathErr(err).Error()
+	}
+	defer f.Close()
+	fi, err := f.Stat()
+	if err != nil {
+		return "cannot be read: " + pathErr(err).Error()
+	}
+	size := fi.Size()
+	if size < 8 {
+		return fmt.Sprintf("is truncated (%d bytes)", size)
+	}
+	u32 := func(off int64) (int64, bool) {
+		var b [4]byte
+		if _, err := f.ReadAt(b[:], off); err != nil && err != io.EOF {
+			return 0, false
+		}
+		return int64(binary.BigEndian.Uint32(b[:])), true
+	}
+	sumLen, ok := u32(size - 4)
+	if !ok || sumLen > size-8 {
+		return "is truncated or overwritten (its checksum length points outside the file)"
+	}
+	indexLen, ok := u32(size - 8 - sumLen)
+	if !ok || indexLen > size-8-sumLen {
+		return "is truncated or overwritten (its index length points outside the file)"
+	}
+	return ""
+}
+
+// pathErr drops the operation and path that an *os.PathError repeats
+// when the caller already names the file.
+func pathErr(err error) error {
+	var pe *os.PathError
+	if errors.As(err, &pe) {
+		return pe.Err
+	}
+	return err
+}
