@@ -1,0 +1,500 @@
+package main
+
+import (
+	"bytes"
+	"context"
+	"fmt"
+	"io"
+	"os"
+	"os/signal"
+	"sort"
+	"strings"
+	"sync"
+	"syscall"
+	"time"
+
+	"github.com/schollz/progressbar/v3"
+	"golang.org/x/term"
+
+	"moltrail/archive"
+	"moltrail/archive/study"
+	"moltrail/compare"
+	"moltrail/report"
+)
+
+func init() {
+	register(Command{Name: "study", Summary: "run a matrix of molecules × levels from a study file; resumable, computes only what the archive lacks", Run: cmdStudy})
+}
+
+const studyHelp = `Runs every calculation a study file describes (molecules × levels × tasks;
+layout: schemas/study.schema.json) and stores each in the archive as soon as
+it finishes. What the archive already holds (same input key, same code
+version) is reused, never recomputed, so an interrupted study — Ctrl-C,
+a killed process, a lost machine — is finished by running the same command
+again, and a level added to the file later runs only the new items.
+
+Cores: --jobs N calculations run at once, each with max(1, cores/N)
+threads (--threads overrides); thread counts never change a number.
+Ctrl-C once: no new calculation starts, the running ones finish and are
+stored. Ctrl-C twice: the running ones are abandoned (nothing half-stored).
+
+Exit status: 0 every item has a converged record, 1 anything failed, did
+not converge, was skipped or is still to do, 2 bad usage or a bad study file.
+`
+
+// studyRun holds how a study is run and reported.
+type studyRun struct {
+	cmd       string
+	archive   string
+	wait      time.Duration
+	jobs      int
+	threads   int
+	retry     bool
+	reportOut string
+	refs      string
+	reportOps report.Options
+}
+
+func cmdStudy(args []string, stdout, stderr io.Writer) int {
+	fs := newFlags("study", stderr, "[flags] STUDY.json")
+	fs.Usage = func() {
+		fmt.Fprintf(stderr, "usage: moltrail study [flags] STUDY.json\n\n%s\nflags:\n", studyHelp)
+		fs.PrintDefaults()
+	}
+	af := addArchiveFlags(fs)
+	jobs := fs.Int("jobs", 1, "calculations run at once; each gets max(1, cores/jobs) threads")
+	threads := fs.Int("threads", 0, "threads per calculation (0 = max(1, cores/jobs)); never changes a number")
+	dry := fs.Bool("dry-run", false, "list what would be computed and what would be reused; compute nothing")
+	asJSON := fs.Bool("json", false, "print one JSON summary on stdout")
+	reportOut := fs.String("report", "", "after the run, write the supplementary-information PDF over exactly the study's records (overrides the study's report.output)")
+	refs := fs.String("refs", "", "reference set for --report: builtin, a built-in set name ("+strings.Join(compare.BuiltinNames(), ", ")+") or a file (default: the study's reference_set, else builtin)")
+	retry := fs.Bool("retry-failed", false, "compute again the items whose stored record failed or did not converge")
+	pos, code, ok := parseFlags(fs, args)
+	if !ok {
+		return code
+	}
+	if len(pos) != 1 {
+		fmt.Fprintln(stderr, "moltrail study: give exactly one study file (JSON)")
+		return exitUsage
+	}
+	if *jobs < 1 || *jobs > 256 {
+		fmt.Fprintf(stderr, "moltrail study: --jobs %d is outside 1–256\n", *jobs)
+		return exitUsage
+	}
+	if *threads < 0 {
+		fmt.Fprintf(stderr, "moltrail study: --threads %d is negative\n", *threads)
+		return exitUsage
+	}
+	st, err := study.Load(pos[0])
+	if err != nil {
+		return fail(stderr, exitUsage, "study", err)
+	}
+	plan, err := st.Plan()
+	if err != nil {
+		return fail(stderr, exitUsage, "study", err)
+	}
+	r := studyRun{cmd: "study", archive: af.path(), wait: af.waitOrNone(), jobs: *jobs, threads: *threads, retry: *retry}
+	r.refs = *refs
+	if r.refs == "" {
+		r.refs = studyRefs(st)
+	}
+	r.reportOut = *reportOut
+	if r.reportOut == "" && st.Report != nil && st.Report.Output != "" {
+		r.reportOut = st.ResolvePath(st.Report.Output)
+	}
+	if st.Report != nil {
+		r.reportOps = report.Options{Title: st.Report.Title, Author: st.Report.Author, Affiliation: st.Report.Affiliation, Date: st.Report.Date}
+	}
+	if *dry {
+		return studyDryRun(plan, r, *asJSON, stdout, stderr)
+	}
+	sum, code := runStudy(plan, r, stderr)
+	if sum == nil {
+		return code
+	}
+	out := studyJSON{Summary: sum}
+	if r.reportOut != "" {
+		_, info, err := studyReport(plan, sum, r, stderr)
+		if err != nil {
+			fmt.Fprintf(stderr, "moltrail study: the report was not written: %v\n", err)
+			code = exitFailed
+		} else {
+			out.Report = info
+		}
+	}
+	if *asJSON {
+		if err := printJSON(stdout, out); err != nil {
+			return fail(stderr, exitFailed, "study", err)
+		}
+	} else {
+		writeStudySummary(stdout, sum)
+		if out.Report != nil {
+			fmt.Fprintf(stdout, "report: wrote %s (%d bytes): %d records, %d deviations (%d with a caution); fingerprint %s\n",
+				out.Report.Out, out.Report.Bytes, out.Report.Records, out.Report.Deviations, out.Report.Flagged, out.Report.Fingerprint)
+		}
+	}
+	if !sum.OK() {
+		code = exitFailed
+	}
+	return code
+}
+
+// studyRefs is the study's reference set argument: a built-in name as
+// written, a file resolved against the study's directory.
+func studyRefs(st *study.Study) string {
+	r := st.ReferenceSet
+	if r == "" {
+		return "builtin"
+	}
+	n := strings.ToLower(r)
+	if n == "builtin" || n == "all" {
+		return r
+	}
+	for _, b := range compare.BuiltinNames() {
+		if n == b {
+			return r
+		}
+	}
+	return st.ResolvePath(r)
+}
+
+// studyJSON is the --json output of study and demo.
+type studyJSON struct {
+	*study.Summary
+	Report *studyReportInfo `json:"report,omitempty"`
+}
+
+type studyReportInfo struct {
+	Out         string `json:"out"`
+	Bytes       int    `json:"bytes"`
+	Fingerprint string `json:"fingerprint_sha256"`
+	Records     int    `json:"records"`
+	Deviations  int    `json:"deviations"`
+	Flagged     int    `json:"flagged_deviations"`
+	RefSet      string `json:"reference_set"`
+}
+
+// runStudy runs the plan with signal handling and progress on stderr. A
+// nil summary means the run could not start (code says why).
+func runStudy(plan *study.Plan, r studyRun, stderr io.Writer) (*study.Summary, int) {
+	ctx, cancel := context.WithCancel(context.Background())
+	defer cancel()
+	abandon := make(chan struct{})
+	sig := make(chan os.Signal, 2)
+	signal.Notify(sig, os.Interrupt, syscall.SIGTERM)
+	finished := make(chan struct{})
+	defer func() { signal.Stop(sig); close(finished) }()
+	pr := newStudyProgress(stderr, r.cmd)
+	go func() {
+		n := 0
+		for {
+			select {
+			case <-sig:
+				n++
+				if n == 1 {
+					pr.say("interrupted: no new calculation starts; the running ones finish and are stored (Ctrl-C again to abandon them)")
+					cancel()
+				} else {
+					pr.say("abandoning the running calculations; everything already stored stays stored")
+					close(abandon)
+					return
+				}
+			case <-finished:
+				return
+			}
+		}
+	}()
+	sum, err := study.Run(ctx, plan, study.Options{Archive: r.archive, Jobs: r.jobs, Threads: r.threads, Wait: r.wait,
+		Compute: engineCompute, RetryFailed: r.retry, Events: pr.event, Abandon: abandon})
+	pr.close()
+	if err != nil {
+		return nil, fail(stderr, exitFailed, r.cmd, err)
+	}
+	if sum.Interrupted {
+		fmt.Fprintf(stderr, "moltrail %s: stopped with %d items still to do; run the same command again to finish them (nothing stored is computed again)\n", r.cmd, sum.Counts.Pending)
+	}
+	return sum, exitOK
+}
+
+// studyProgress shows a run's progress: a bar on a terminal, one line per
+// finished item otherwise.
+type studyProgress struct {
+	mu     sync.Mutex
+	w      io.Writer
+	cmd    string
+	tty    bool
+	bar    *progressbar.ProgressBar
+	max    int
+	total  int
+	stop   chan struct{}
+	counts study.Counts
+	run    int
+}
+
+func isTerminal(w io.Writer) bool {
+	f, ok := w.(*os.File)
+	return ok && term.IsTerminal(int(f.Fd()))
+}
+
+func newStudyProgress(w io.Writer, cmd string) *studyProgress {
+	return &studyProgress{w: w, cmd: cmd, tty: isTerminal(w), stop: make(chan struct{})}
+}
+
+// say prints a remark, above the bar if there is one.
+func (p *studyProgress) say(msg string) {
+	p.mu.Lock()
+	defer p.mu.Unlock()
+	if p.bar != nil {
+		p.bar.Clear()
+	}
+	fmt.Fprintf(p.w, "moltrail %s: %s\n", p.cmd, msg)
+	if p.bar != nil {
+		p.bar.RenderBlank()
+	}
+}
+
+func (p *studyProgress) describe() string {
+	c := p.counts
+	s := fmt.Sprintf("done %d · reused %d · running %d", c.Done, c.Reused, p.run)
+	if n := c.Failed + c.NotConverged + c.Skipped; n > 0 {
+		s += fmt.Sprintf(" · problems %d", n)
+	}
+	return s
+}
+
+func (p *studyProgress) event(e study.Event) {
+	p.mu.Lock()
+	defer p.mu.Unlock()
+	p.counts, p.run, p.total = e.Progress.Counts, e.Progress.Running, e.Progress.Total
+	switch e.Kind {
+	case study.EventPlanned:
+		stored := e.Progress.Counts.Done + e.Progress.Counts.Reused + e.Progress.Counts.Failed + e.Progress.Counts.NotConverged
+		fmt.Fprintf(p.w, "moltrail %s: %d items: %d already stored, %d to compute or waiting for a geometry\n", p.cmd, e.Progress.Total, stored, e.Progress.ToCompute)
+		if p.tty && e.Progress.ToCompute > 0 {
+			p.max = e.Progress.ToCompute
+			p.bar = progressbar.NewOptions(p.max, progressbar.OptionSetWriter(p.w), progressbar.OptionShowCount(),
+				progressbar.OptionSetPredictTime(true), progressbar.OptionSetElapsedTime(true), progressbar.OptionSetWidth(24),
+				progressbar.OptionSetDescription(p.describe()), progressbar.OptionThrottle(200*time.Millisecond),
+				progressbar.OptionSetTheme(progressbar.Theme{Saucer: "#", SaucerPadding: ".", BarStart: "|", BarEnd: "|"}))
+			p.bar.RenderBlank()
+			go p.tick()
+		}
+	case study.EventStarted:
+		if p.bar != nil {
+			p.bar.Describe(p.describe())
+		}
+	case study.EventFinished:
+		it := e.Item
+		if p.bar == nil {
+			if it.Outcome == study.Reused && it.Category() == "reused" && e.Progress.ComputedSoFar == 0 && e.Progress.Running == 0 {
+				// Reused before anything ran: counted in the first line already.
+				return
+			}
+			fmt.Fprintln(p.w, itemLine(it, e.Progress.Finished, e.Progress.Total))
+			return
+		}
+		if c := it.Category(); c != "done" && c != "reused" {
+			p.bar.Clear()
+			fmt.Fprintln(p.w, itemLine(it, e.Progress.Finished, e.Progress.Total))
+		}
+		if e.Progress.ToCompute != p.max && e.Progress.ToCompute > 0 {
+			p.max = e.Progress.ToCompute
+			p.bar.ChangeMax(p.max)
+		}
+		p.bar.Describe(p.describe())
+		p.bar.Set(e.Progress.ComputedSoFar)
+	case study.EventStopping:
+		if p.bar != nil {
+			p.bar.Describe(p.describe() + " · stopping")
+		}
+	}
+}
+
+// tick refreshes the bar's clock while long calculations run.
+func (p *studyProgress) tick() {
+	t := time.NewTicker(time.Second)
+	defer t.Stop()
+	for {
+		select {
+		case <-t.C:
+			p.mu.Lock()
+			if p.bar != nil {
+				p.bar.Describe(p.describe())
+			}
+			p.mu.Unlock()
+		case <-p.stop:
+			return
+		}
+	}
+}
+
+func (p *studyProgress) close() {
+	p.mu.Lock()
+	defer p.mu.Unlock()
+	close(p.stop)
+	if p.bar != nil {
+		p.bar.Describe(p.describe())
+		p.bar.Exit()
+		fmt.Fprintln(p.w)
+		p.bar = nil
+	}
+}
+
+// itemLine is the one-line account of a finished item.
+func itemLine(it *study.ItemResult, n, total int) string {
+	w := len(fmt.Sprint(total))
+	cat := it.Category()
+	word := map[string]string{"done": "done", "reused": "reused", "failed": "FAILED", "not_converged": "NOT CONVERGED", "skipped": "skipped", "pending": "pending"}[cat]
+	s := fmt.Sprintf("(%*d/%d) %-8s %s", w, n, total, word, it.Item)
+	if it.WallSeconds > 0 {
+		s += fmt.Sprintf("  %.1f s", it.WallSeconds)
+	}
+	if it.RecordID != "" {
+		s += "  record " + it.RecordID[:12]
+	}
+	if it.Error != "" && cat != "done" && cat != "reused" {
+		s += ": " + it.Error
+	}
+	return s
+}
+
+// writeStudySummary prints the closing summary.
+func writeStudySummary(w io.Writer, s *study.Summary) {
+	c := s.Counts
+	fmt.Fprintf(w, "study %q: %d items: %d done, %d reused, %d failed, %d not converged", s.Study, c.Total, c.Done, c.Reused, c.Failed, c.NotConverged)
+	if c.Skipped > 0 {
+		fmt.Fprintf(w, ", %d skipped", c.Skipped)
+	}
+	if c.Pending > 0 {
+		fmt.Fprintf(w, ", %d still to do", c.Pending)
+	}
+	fmt.Fprintf(w, "  (%d job%s × %d thread%s, %s)\n", s.Jobs, plural(s.Jobs), s.ThreadsPerJob, plural(s.ThreadsPerJob), roundDur(s.WallSeconds))
+	for i := range s.Items {
+		it := &s.Items[i]
+		switch it.Category() {
+		case "failed", "not_converged", "skipped":
+			fmt.Fprintf(w, "  %-13s %s: %s\n", strings.ReplaceAll(it.Category(), "_", " "), it.Item, it.Error)
+		}
+	}
+}
+
+func plural(n int) string {
+	if n == 1 {
+		return ""
+	}
+	return "s"
+}
+
+func roundDur(sec float64) string {
+	d := time.Duration(sec * float64(time.Second))
+	switch {
+	case d < 10*time.Second:
+		return d.Round(100 * time.Millisecond).String()
+	default:
+		return d.Round(time.Second).String()
+	}
+}
+
+func studyDryRun(plan *study.Plan, r studyRun, asJSON bool, stdout, stderr io.Writer) int {
+	sum, err := study.DryRun(plan, study.Options{Archive: r.archive, Jobs: r.jobs, Threads: r.threads, Wait: r.wait, RetryFailed: r.retry})
+	if err != nil {
+		return fail(stderr, exitFailed, r.cmd, err)
+	}
+	if asJSON {
+		if err := printJSON(stdout, studyJSON{Summary: sum}); err != nil {
+			return fail(stderr, exitFailed, r.cmd, err)
+		}
+		return exitOK
+	}
+	t := table{head: []string{"#", "plan", "molecule", "level", "task", "geometry from", "stored record"}}
+	for i := range sum.Items {
+		it := &sum.Items[i]
+		plan := "compute"
+		rec := ""
+		if it.Outcome == study.WouldReuse {
+			plan = "reuse"
+			rec = it.RecordID[:12]
+			if it.Status != "converged" {
+				rec += " (" + strings.ReplaceAll(it.Status, "_", " ") + ")"
+			}
+		}
+		if it.Waits != "" {
+			plan = "compute after"
+			rec = "waits for " + it.Waits
+		}
+		from := it.GeometryFrom
+		if from == "" {
+			from = "as given"
+		}
+		task := it.Task
+		if it.Implied {
+			task += " (needed)"
+		}
+		t.add(fmt.Sprint(it.Index+1), plan, it.Molecule, it.Level, task, from, rec)
+	}
+	t.write(stdout)
+	fmt.Fprintf(stdout, "study %q: %d items: %d to compute, %d stored already; %d job%s × %d thread%s; archive %s\n",
+		sum.Study, sum.Counts.Total, sum.Counts.ToCompute, sum.Counts.Total-sum.Counts.ToCompute,
+		sum.Jobs, plural(sum.Jobs), sum.ThreadsPerJob, plural(sum.ThreadsPerJob), r.archive)
+	return exitOK
+}
+
+// studyReport compares exactly the study's records with the reference set
+// and writes the document when r.reportOut is set.
+func studyReport(plan *study.Plan, sum *study.Summary, r studyRun, stderr io.Writer) (*compare.Table, *studyReportInfo, error) {
+	set, err := compare.LoadRefSet(r.refs)
+	if err != nil {
+		return nil, nil, err
+	}
+	var recs []*archive.Record
+	for _, rec := range sum.Records() {
+		if set.Names(rec.Input.Molecule.Name) {
+			recs = append(recs, rec)
+		}
+	}
+	// A fixed order (by id) so the document does not depend on which
+	// worker finished first.
+	sort.Slice(recs, func(i, j int) bool { return recs[i].ID < recs[j].ID })
+	tab, err := compare.Compare(set, recs, compare.Options{})
+	if err != nil {
+		return nil, nil, err
+	}
+	if r.reportOut == "" {
+		return tab, nil, nil
+	}
+	used := map[string]bool{}
+	for _, p := range tab.Picked {
+		used[p.RecordID] = true
+	}
+	for _, d := range tab.Deviations {
+		used[d.RecordID] = true
+	}
+	var chosen []archive.Record
+	for _, rec := range recs {
+		if used[rec.ID] {
+			chosen = append(chosen, *rec)
+			delete(used, rec.ID)
+		}
+	}
+	opts := r.reportOps
+	opts.Selection = append(opts.Selection, "study="+plan.Study.Name, "study_file="+plan.Study.Origin, fmt.Sprintf("study_items=%d", len(plan.Items)))
+	if opts.Title == "" {
+		opts.Title = plan.Study.Name
+	}
+	var buf bytes.Buffer
+	if err := report.PDF(&buf, tab, chosen, opts); err != nil {
+		return nil, nil, err
+	}
+	if err := writeFileAtomic(r.reportOut, buf.Bytes()); err != nil {
+		return nil, nil, fmt.Errorf("%s: %v", r.reportOut, err)
+	}
+	flagged := 0
+	for _, d := range tab.Deviations {
+		if len(d.Cautions) > 0 {
+			flagged++
+		}
+	}
+	return tab, &studyReportInfo{Out: r.reportOut, Bytes: buf.Len(), Fingerprint: report.Fingerprint(tab, chosen, opts),
+		Records: len(chosen), Deviations: len(tab.Deviations), Flagged: flagged, RefSet: tab.RefSet.Name}, nil
+}
+
