@@ -206,10 +206,30 @@ func checkIdentity(entryID string, m *RefMolecule, rm *recMol) (other string, er
 	if r.Input.Molecule.Charge != m.Charge {
 		return fmt.Sprintf("charge %+d, but the reference molecule %s has charge %+d", r.Input.Molecule.Charge, m.Name, m.Charge), nil
 	}
-	if m.Multiplicity != 0 && r.Input.Molecule.Multiplicity != m.Multiplicity {
-		return fmt.Sprintf("multiplicity %d, but the reference molecule %s has multiplicity %d", r.Input.Molecule.Multiplicity, m.Name, m.Multiplicity), nil
+	mult := m.Multiplicity
+	if mult == 0 {
+		mult = lowestMultiplicity(rm.counts, m.Charge)
+	}
+	if mult != 0 && r.Input.Molecule.Multiplicity != mult {
+		return fmt.Sprintf("multiplicity %d, but the reference molecule %s has multiplicity %d", r.Input.Molecule.Multiplicity, m.Name, mult), nil
 	}
 	return "", nil
+}
+
+// lowestMultiplicity is the multiplicity a reference molecule that states
+// none is taken to have: the lowest its electron count allows (1 for an
+// even count, 2 for an odd one), the same default as a calculation's. It
+// is 0 when an element is unknown.
+func lowestMultiplicity(counts map[string]int, charge int) int {
+	electrons := -charge
+	for sym, n := range counts {
+		el, err := molecule.Lookup(sym)
+		if err != nil {
+			return 0
+		}
+		electrons += el.Z * n
+	}
+	return (electrons%2+2)%2 + 1
 }
 
 // checkAtoms verifies atom by atom that the record's atoms carry the

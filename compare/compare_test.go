@@ -523,6 +523,30 @@ func TestIonUnderTheSameNameIsLeftOut(t *testing.T) {
 	}
 }
 
+// TestOtherSpinStateIsLeftOut: the built-in water states no multiplicity,
+// so it is the singlet; a neutral triplet named water is another species.
+func TestOtherSpinStateIsLeftOut(t *testing.T) {
+	set, _ := Builtin("structures-exp")
+	trip := waterOpt("hhhhtrip", "2025-01-02T00:00:00Z", 1.0, 110)
+	trip.mult = 3
+	sing := waterOpt("hhhhsing", "2025-01-01T00:00:00Z", 0.95, 104)
+	tab, err := Compare(set, []*archive.Record{trip.record(), sing.record()}, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(tab.Excluded) != 1 || tab.Excluded[0].RecordID != trip.record().ID || !strings.Contains(tab.Excluded[0].Reason, "multiplicity 3") {
+		t.Errorf("a triplet named water must be left out and listed: %+v", tab.Excluded)
+	}
+	for _, d := range tab.Deviations {
+		if d.RecordID != sing.record().ID {
+			t.Errorf("deviation %s from record %s, want the singlet", d.EntryID, d.RecordID)
+		}
+	}
+	if len(tab.Deviations) == 0 {
+		t.Error("the singlet was not compared")
+	}
+}
+
 // BenchmarkCompare: the five real records cloned onto 40 levels (200
 // records) against all built-in sets, bootstrap 2000.
 func BenchmarkCompare(b *testing.B) {

@@ -40,7 +40,8 @@ type RefSet struct {
 // RefMolecule names the molecule an entry is about. Atoms lists the element
 // symbol of every atom in order; quantity atom indices (from 0) refer to it,
 // and a record matches only if its atoms carry the same elements in the
-// same order.
+// same order, and the same charge and multiplicity (a multiplicity left
+// out is the lowest the electron count allows: 1 or 2).
 type RefMolecule struct {
 	Name         string   `json:"name"`
 	Aliases      []string `json:"aliases,omitempty"`

@@ -30,7 +30,7 @@ func WriteText(w io.Writer, t *Table) error {
 
 	if len(t.Picked) > 0 {
 		p.rule("records used")
-		g := &grid{head: []string{"molecule", "level", "for", "record", "started (UTC)", "why this one"}}
+		g := &grid{head: []string{"molecule", "level", "for", "record", "started UTC", "why this one"}}
 		for _, pk := range t.Picked {
 			g.add(pk.Molecule, pk.Level, pk.Purpose, shortID(pk.RecordID), when(pk.DateUTC), pk.Reason)
 		}
@@ -135,13 +135,14 @@ func WriteText(w io.Writer, t *Table) error {
 	return p.err
 }
 
-// when shortens an RFC 3339 time to the second, in UTC.
+// when shortens an RFC 3339 time to the second, in UTC (ISO 8601, as every
+// moltrail command prints times).
 func when(s string) string {
 	t, err := time.Parse(time.RFC3339Nano, s)
 	if err != nil {
 		return s
 	}
-	return t.UTC().Format("2006-01-02 15:04:05")
+	return t.UTC().Format("2006-01-02T15:04:05Z")
 }
 
 func nonEmpty(s ...string) []string {
