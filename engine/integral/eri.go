@@ -87,6 +87,9 @@ type pairData struct {
 	usedH   []int32 // Hermite indices used by any function pair
 	nzPos   []int32 // position of nzH[j] in usedH
 	mu, nu  []int32 // global functions of each pair function
+	// views[m] is the pair restricted to member combination m (sharing
+	// all primitive data), for single shell quartets; nil when nm = 1.
+	views []pairData
 }
 
 // ERI computes electron-repulsion integrals (ij|kl) over the shells of a
@@ -384,6 +387,20 @@ func (e *ERI) makePair(I, J int, trans [][]float64) pairData {
 					pd.nu[q] = gB.funcs[mb*pd.nfb+fb]
 				}
 			}
+		}
+	}
+	if pd.nm > 1 {
+		pd.views = make([]pairData, pd.nm)
+		for m := range pd.views {
+			v := pd
+			v.views = nil
+			v.nma, v.nmb, v.nm, v.ntot = 1, 1, 1, pd.nf
+			v.w = make([]float64, pd.np)
+			for k := range v.w {
+				v.w[k] = pd.w[k*pd.nm+m]
+			}
+			v.mu, v.nu = pd.mu[m*pd.nf:(m+1)*pd.nf], pd.nu[m*pd.nf:(m+1)*pd.nf]
+			pd.views[m] = v
 		}
 	}
 	return pd
@@ -708,18 +725,25 @@ func (e *ERI) Threshold() float64 { return e.thr }
 // Schwarz returns sqrt(max |(ij|ij)|) over the functions of shells i, j.
 func (e *ERI) Schwarz(i, j int) float64 { return e.schwarzS[pairIndex(i, j)] }
 
-// pairFunc locates function a of shell i and b of shell j in the group
-// pair holding (i, j): it returns the pair and the pair-function index.
+// pairFunc locates function a of shell i and b of shell j: it returns the
+// group pair restricted to the member combination of (i, j) and the
+// index of (a, b) in it.
 func (e *ERI) pairFunc(i, j int) (*pairData, func(a, b int) int) {
 	gi, gj := e.shellGrp[i], e.shellGrp[j]
 	mi, mj := e.shellMem[i], e.shellMem[j]
 	pd := &e.pairs[pairIndex(gi, gj)]
-	if gi >= gj {
-		base := (mi*pd.nmb + mj) * pd.nf
-		return pd, func(a, b int) int { return base + a*pd.nfb + b }
+	m, swap := mi*pd.nmb+mj, false
+	if gi < gj {
+		m, swap = mj*pd.nmb+mi, true
 	}
-	base := (mj*pd.nmb + mi) * pd.nf
-	return pd, func(a, b int) int { return base + b*pd.nfb + a }
+	if pd.views != nil {
+		pd = &pd.views[m]
+	}
+	nfb := pd.nfb
+	if swap {
+		return pd, func(a, b int) int { return b*nfb + a }
+	}
+	return pd, func(a, b int) int { return a*nfb + b }
 }
 
 // Shell writes the (ij|kl) block in final basis functions, row-major
