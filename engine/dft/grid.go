@@ -192,7 +192,11 @@ func NewGrid(mol *molecule.Molecule, spec GridSpec, threads int) (*Grid, error) 
 	for i := 0; i < nat; i++ {
 		for j := 0; j < nat; j++ {
 			if i != j {
-				invR[i*nat+j] = 1 / mol.Distance(i, j)
+				d := mol.Distance(i, j)
+				if !(d > 1e-6) {
+					return nil, fmt.Errorf("grid: atoms %d (%s) and %d (%s) of %q coincide", i+1, mol.Atoms[i].Symbol, j+1, mol.Atoms[j].Symbol, mol.Name)
+				}
+				invR[i*nat+j] = 1 / d
 			}
 		}
 	}

@@ -158,6 +158,11 @@ func TestGridSpecChecks(t *testing.T) {
 			t.Errorf("%s: bad spec accepted", name)
 		}
 	}
+	bad := water()
+	bad.Atoms[2].PosBohr = bad.Atoms[1].PosBohr
+	if _, err := NewGrid(bad, good, 1); err == nil {
+		t.Error("coincident atoms accepted")
+	}
 	if _, err := Level("nope"); err == nil {
 		t.Error("unknown level accepted")
 	}
