@@ -33,8 +33,8 @@ func water() []molecule.Atom {
 	}
 }
 
-// guessDensity is a symmetric positive test density (not a physical one):
-// the inverse overlap scaled down, which has the right structure for J/K.
+// testDensity is a symmetric test density (not a physical one):
+// the overlap scaled down and modulated, which has the sparsity of a real one.
 func testDensity(mb *basis.Molecular) *mat.SymDense {
 	S := Overlap(mb)
 	n := mb.NBasis

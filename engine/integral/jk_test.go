@@ -4,6 +4,7 @@ import (
 	"math"
 	"math/rand"
 	"runtime"
+	"sync"
 	"testing"
 
 	"gonum.org/v1/gonum/mat"
@@ -167,4 +168,42 @@ func TestLargeJobGoesDirect(t *testing.T) {
 	}
 	t.Logf("heap in use %.1f MiB", float64(ms.HeapAlloc)/(1<<20))
 	t.Logf("%d functions: %v", mb.NBasis, st)
+}
+
+// Shell may be called from several goroutines at once.
+func TestShellConcurrent(t *testing.T) {
+	mb, _ := buildBasis(t, "cc-pvdz", "", water()...)
+	e, err := NewERI(mb, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	ref := fullERI(e)
+	var wg sync.WaitGroup
+	errs := make(chan string, 4)
+	for g := 0; g < 4; g++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			if got := fullERI(e); !slicesEqual(got, ref) {
+				errs <- "concurrent Shell calls gave different integrals"
+			}
+		}()
+	}
+	wg.Wait()
+	close(errs)
+	for m := range errs {
+		t.Error(m)
+	}
+}
+
+func slicesEqual(a, b []float64) bool {
+	if len(a) != len(b) {
+		return false
+	}
+	for i := range a {
+		if a[i] != b[i] {
+			return false
+		}
+	}
+	return true
 }
