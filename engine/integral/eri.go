@@ -218,6 +218,9 @@ func NewERI(mb *basis.Molecular, opt Options) (*ERI, error) {
 			e.maxTot = max(e.maxTot, pd.ntot)
 		}
 	}
+	if e.maxTot > 65535 {
+		return nil, fmt.Errorf("integral: a shell-group pair has %d function pairs; at most 65535 are supported", e.maxTot)
+	}
 	e.maxX = maxNm * nHerm(2*e.maxL) * maxNf
 	e.workPool.New = func() any { return newWork(e.maxL, e.maxTot, e.maxX) }
 	// Schwarz bounds, computed in parallel over pairs; each pair's value
@@ -491,6 +494,8 @@ type work struct {
 	xs     []float64
 	out    []float64
 	perm   []float64
+	pv     []float64 // packed block (direct mode)
+	pp, pc []uint16
 }
 
 func newWork(maxL, maxTot, maxX int) *work {

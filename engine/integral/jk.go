@@ -19,8 +19,13 @@ const numChunks = 32
 // that pass the Schwarz test are processed in ascending order.
 type chunk struct {
 	rows []int32
-	size int64     // integrals of the chunk's quartets
-	vals []float64 // in-core integrals in processing order
+	size int64 // integrals of the chunk's quartets
+	// In-core integrals in processing order, zeros left out: for each
+	// quartet and bra pair function, cnt non-zero values with their ket
+	// pair-function positions.
+	vals []float64
+	pos  []uint16
+	cnt  []uint16
 	jAcc [][]float64
 	kAcc [][]float64
 }
@@ -70,9 +75,11 @@ func (e *ERI) Stats() Stats {
 	if st := e.store; st != nil {
 		s.UniqueQuartets, s.SchwarzScreened, s.InCore = st.unique, st.screened, st.inCore
 		s.UniqueIntegralBytes = 8 * st.stored
-		if st.inCore {
-			s.StoredIntegrals = st.stored
-			s.StoredBytes = 8 * st.stored
+		if st.inCore && st.filled {
+			for _, c := range st.chunks {
+				s.StoredIntegrals += int64(len(c.vals))
+				s.StoredBytes += int64(10*len(c.vals) + 2*len(c.cnt))
+			}
 		}
 		if tot := st.unique + st.screened; tot > 0 {
 			s.SchwarzScreenedShare = float64(st.screened) / float64(tot)
@@ -311,9 +318,11 @@ func (e *ERI) densityBlockMax(dens [][]float64) []float64 {
 
 func (e *ERI) runChunk(c *chunk, mode int, dens [][]float64, dmax []float64, wantK bool, w *work) {
 	ns := len(e.groups)
-	var off int
+	var ov, oc int
 	if mode == modeStore {
-		c.vals = make([]float64, 0, c.size)
+		c.vals = make([]float64, 0, c.size/2)
+		c.pos = make([]uint16, 0, c.size/2)
+		c.cnt = c.cnt[:0]
 	}
 	var computed, dskip int64
 	for _, P32 := range c.rows {
@@ -326,17 +335,25 @@ func (e *ERI) runChunk(c *chunk, mode int, dens [][]float64, dmax []float64, wan
 			}
 			B := &e.pairs[Q]
 			nv := A.ntot * B.ntot
-			var blk []float64
+			var vals []float64
+			var pos, cnt []uint16
 			switch mode {
 			case modeReplay:
-				blk = c.vals[off : off+nv]
-				off += nv
+				cnt = c.cnt[oc : oc+A.ntot]
+				k := 0
+				for _, m := range cnt {
+					k += int(m)
+				}
+				vals, pos = c.vals[ov:ov+k], c.pos[ov:ov+k]
+				ov += k
+				oc += A.ntot
 			case modeStore:
-				start := len(c.vals)
-				c.vals = c.vals[:start+nv]
-				blk = c.vals[start : start+nv]
+				blk := w.out[:nv]
 				e.quartet(A, B, w, blk)
 				computed++
+				v0, c0 := len(c.vals), len(c.cnt)
+				c.vals, c.pos, c.cnt = pack(blk, A.ntot, B.ntot, c.vals, c.pos, c.cnt)
+				vals, pos, cnt = c.vals[v0:], c.pos[v0:], c.cnt[c0:]
 			default:
 				i, j, k, l := A.I, A.J, B.I, B.J
 				dm := 4 * dmax[k*ns+l]
@@ -349,21 +366,39 @@ func (e *ERI) runChunk(c *chunk, mode int, dens [][]float64, dmax []float64, wan
 					dskip++
 					continue
 				}
-				blk = w.out[:nv]
+				blk := w.out[:nv]
 				e.quartet(A, B, w, blk)
 				computed++
+				w.pv, w.pp, w.pc = pack(blk, A.ntot, B.ntot, w.pv[:0], w.pp[:0], w.pc[:0])
+				vals, pos, cnt = w.pv, w.pp, w.pc
 			}
-			e.contract(A, B, P == Q, blk, dens, c, wantK)
+			e.contract(A, B, P == Q, vals, pos, cnt, dens, c, wantK)
 		}
 	}
 	e.stats.computed.Add(computed)
 	e.stats.densitySkipped.Add(dskip)
 }
 
+// pack appends the non-zero elements of the nA×nB block row by row.
+func pack(blk []float64, nA, nB int, vals []float64, pos, cnt []uint16) ([]float64, []uint16, []uint16) {
+	for a := 0; a < nA; a++ {
+		k := 0
+		for b, v := range blk[a*nB : (a+1)*nB] {
+			if v != 0 {
+				vals = append(vals, v)
+				pos = append(pos, uint16(b))
+				k++
+			}
+		}
+		cnt = append(cnt, uint16(k))
+	}
+	return vals, pos, cnt
+}
+
 // contract adds one unique quartet's contributions (scaled for its
 // degeneracy) to the chunk's accumulators: A[μν] += v D[λσ], A[λσ] += v D[μν]
 // for J = 2(A+Aᵀ), and the four K terms for K = B+Bᵀ.
-func (e *ERI) contract(A, B *pairData, samePair bool, blk []float64, dens [][]float64, c *chunk, wantK bool) {
+func (e *ERI) contract(A, B *pairData, samePair bool, vals []float64, pos, cnt []uint16, dens [][]float64, c *chunk, wantK bool) {
 	n := e.mb.NBasis
 	deg := 1.0
 	if A.I == A.J {
@@ -375,7 +410,6 @@ func (e *ERI) contract(A, B *pairData, samePair bool, blk []float64, dens [][]fl
 	if samePair {
 		deg *= 0.5
 	}
-	nB := B.ntot
 	lam, sig := B.mu, B.nu
 	for d, D := range dens {
 		ja := c.jAcc[d]
@@ -383,14 +417,21 @@ func (e *ERI) contract(A, B *pairData, samePair bool, blk []float64, dens [][]fl
 		if wantK {
 			ka = c.kAcc[d]
 		}
+		o := 0
 		for pa := 0; pa < A.ntot; pa++ {
+			k := int(cnt[pa])
+			row, rpos := vals[o:o+k], pos[o:o+k]
+			o += k
+			if k == 0 {
+				continue
+			}
 			mu, nu := int(A.mu[pa]), int(A.nu[pa])
-			row := blk[pa*nB : (pa+1)*nB]
 			dmn := deg * D[mu*n+nu]
 			dMu, dNu := D[mu*n:(mu+1)*n], D[nu*n:(nu+1)*n]
 			jmn := 0.0
 			if !wantK {
-				for pb, v := range row {
+				for t, v := range row {
+					pb := rpos[t]
 					l, s := int(lam[pb]), int(sig[pb])
 					jmn += v * D[l*n+s]
 					ja[l*n+s] += v * dmn
@@ -399,7 +440,8 @@ func (e *ERI) contract(A, B *pairData, samePair bool, blk []float64, dens [][]fl
 				continue
 			}
 			kMu, kNu := ka[mu*n:(mu+1)*n], ka[nu*n:(nu+1)*n]
-			for pb, v := range row {
+			for t, v := range row {
+				pb := rpos[t]
 				l, s := int(lam[pb]), int(sig[pb])
 				jmn += v * D[l*n+s]
 				ja[l*n+s] += v * dmn
