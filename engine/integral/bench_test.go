@@ -2,6 +2,7 @@ package integral
 
 import (
 	"math"
+	"runtime"
 	"syscall"
 	"testing"
 
@@ -99,3 +100,62 @@ func benchReplay(b *testing.B, threads int) {
 
 func BenchmarkJKReplayBenzene1Thread(b *testing.B)  { benchReplay(b, 1) }
 func BenchmarkJKReplayBenzene2Threads(b *testing.B) { benchReplay(b, 2) }
+
+// threadCPU is the calling OS thread's CPU time (Linux RUSAGE_THREAD).
+func threadCPU() float64 {
+	var ru syscall.Rusage
+	if err := syscall.Getrusage(1, &ru); err != nil {
+		return math.NaN()
+	}
+	return float64(ru.Utime.Nano()+ru.Stime.Nano()) * 1e-9
+}
+
+// BenchmarkJKWorkBalance runs the work units of the first (integral
+// computing) benzene J/K build one after another on one locked thread,
+// measures each one's CPU time, and replays the dynamic schedule JK uses
+// for 2 workers: est-speedup-2 = total work / longest worker. On a loaded
+// machine this shows what the decomposition allows even when two free
+// cores are not available to measure a wall-clock speed-up.
+func BenchmarkJKWorkBalance(b *testing.B) {
+	mb, _ := buildBasis(b, "cc-pvdz", "", benzene()...)
+	D := testDensity(mb)
+	for it := 0; it < b.N; it++ {
+		e, err := NewERI(mb, Options{Threads: 1})
+		if err != nil {
+			b.Fatal(err)
+		}
+		e.setup()
+		st := e.store
+		n := mb.NBasis
+		dens := [][]float64{make([]float64, n*n)}
+		for x := 0; x < n; x++ {
+			for y := 0; y < n; y++ {
+				dens[0][x*n+y] = D.At(x, y)
+			}
+		}
+		runtime.LockOSThread()
+		w := e.getWork()
+		cost := make([]float64, len(st.chunks))
+		for k, c := range st.chunks {
+			c.jAcc = resize(c.jAcc, 1, n*n)
+			c.kAcc = resize(c.kAcc, 1, n*n)
+			t0 := threadCPU()
+			e.runChunk(c, modeStore, dens, nil, true, w)
+			cost[k] = threadCPU() - t0
+		}
+		runtime.UnlockOSThread()
+		// dynamic schedule: the next unit goes to the worker that is free first
+		var tw [2]float64
+		total := 0.0
+		for _, c := range cost {
+			total += c
+			if tw[0] <= tw[1] {
+				tw[0] += c
+			} else {
+				tw[1] += c
+			}
+		}
+		b.ReportMetric(total/math.Max(tw[0], tw[1]), "est-speedup-2")
+		b.ReportMetric(total, "work-cpu-s")
+	}
+}

@@ -22,7 +22,7 @@
 // and primitive quartets below PrimitiveQuartetThreshold are dropped; shell quartets with Q_ij·Q_kl below the Schwarz threshold
 // (DefaultSchwarzThreshold unless set) are skipped; J/K builds use the
 // 8-fold permutational symmetry of (ij|kl). The unique screened integrals
-// are stored when they fit the memory budget; otherwise each build
+// are stored (exact zeros left out) when they fit the memory budget; otherwise each build
 // recomputes them (direct mode) and also skips quartets whose Schwarz bound
 // times the largest density element they meet is below the threshold.
 //
