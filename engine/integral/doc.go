@@ -19,12 +19,14 @@
 // together, so their primitive integrals are made once.
 //
 // Screening: primitive pairs with negligible prefactor (PrimitiveThreshold)
-// and primitive quartets below PrimitiveQuartetThreshold are dropped; shell quartets with Q_ij·Q_kl below the Schwarz threshold
+// and primitive quartets below PrimitiveQuartetThreshold are dropped;
+// shell quartets with Q_ij·Q_kl below the Schwarz threshold
 // (DefaultSchwarzThreshold unless set) are skipped; J/K builds use the
 // 8-fold permutational symmetry of (ij|kl). The unique screened integrals
-// are stored (exact zeros left out) when they fit the memory budget; otherwise each build
-// recomputes them (direct mode) and also skips quartets whose Schwarz bound
-// times the largest density element they meet is below the threshold.
+// are stored (exact zeros left out) when they fit the memory budget;
+// otherwise each build recomputes them (direct mode) and also skips
+// quartets whose Schwarz bound times the largest density element they meet
+// is below the threshold.
 //
 // Determinism: a J/K build is split into a fixed number of work units, each
 // with its own accumulators, summed in a fixed order, so the result has the
