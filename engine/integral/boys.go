@@ -12,7 +12,8 @@ import (
 // grid of spacing boysStep gives F_mmax (the grid holds F_m for m up to
 // MaxBoysOrder+boysTaylor), then the downward recursion
 // F_m = (2T F_{m+1} + e^{−T})/(2m+1), which is stable, gives the lower
-// orders. For T ≥ boysTMax: F_0 = ½√(π/T) erf(√T) and the upward recursion
+// orders. For T ≥ boysTMax: F_0 = ½√(π/T) (erf(√T) is 1 to double
+// precision there) and the upward recursion
 // F_{m+1} = ((2m+1) F_m − e^{−T})/(2T), which is stable there (T > m).
 //
 // The grid values are made once, on first use, from the series
@@ -116,8 +117,8 @@ func boys(mmax int, T float64, f []float64) {
 		}
 		return
 	}
-	st := math.Sqrt(T)
-	f[0] = 0.5 * math.Sqrt(math.Pi) / st * math.Erf(st)
+	// erf(√T) = 1 − O(e^{−T}/√T) rounds to 1 for T ≥ boysTMax = 40.
+	f[0] = 0.5 * math.Sqrt(math.Pi/T)
 	if mmax > 0 {
 		ex := math.Exp(-T)
 		inv2T := 0.5 / T
