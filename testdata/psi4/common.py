@@ -24,6 +24,7 @@ import math
 import os
 import platform
 import sys
+import time
 
 sys.path.insert(0, "/usr/lib/x86_64-linux-gnu")
 import numpy as np  # noqa: E402
@@ -274,3 +275,34 @@ def multipoles(wfn, geom_bohr, prefix="SCF"):
         "psi4_oeprop_dipole_debye_check": arr(psi_dip * c_dip),
         "psi4_oeprop_quadrupole_debye_angstrom_check": arr(psi_quad * c_quad),
     }
+
+
+TIMING_NOTE = ("The machine (2 cores) is shared with other developers' builds and tests, so wall times are "
+               "upper bounds: each timing was repeated, and we give every repetition with its wall time, "
+               "the process CPU time (user+sys of all psi4 threads, less sensitive to other load) and the "
+               "1-minute load average just before it; use the minimum as the best estimate.")
+
+
+def timed(fn, repeats):
+    """Run fn() `repeats` times; return (last result, list of timing records)."""
+    import resource
+    recs = []
+    res = None
+    for _ in range(repeats):
+        load = os.getloadavg()[0]
+        r0 = resource.getrusage(resource.RUSAGE_SELF)
+        t0 = time.time()
+        res = fn()
+        wall = time.time() - t0
+        r1 = resource.getrusage(resource.RUSAGE_SELF)
+        cpu = (r1.ru_utime - r0.ru_utime) + (r1.ru_stime - r0.ru_stime)
+        recs.append({"wall_seconds": round(wall, 3), "cpu_seconds": round(cpu, 3),
+                     "load_average_1min_before": round(load, 2),
+                     "date": datetime.datetime.utcnow().strftime("%Y-%m-%dT%H:%M:%SZ")})
+    return res, recs
+
+
+def timing_summary(recs):
+    return {"wall_seconds_min": min(r["wall_seconds"] for r in recs),
+            "cpu_seconds_min": min(r["cpu_seconds"] for r in recs),
+            "repetitions": recs}

@@ -6,9 +6,8 @@ benzene MP2/cc-pVDZ one-core timing.
 Run: cd testdata/psi4 && /usr/bin/python3 gen_mp2.py
 """
 import sys
-import time
 
-from common import (SCF_COMMON, SCF_COMMON_DOC, MULTIPOLE_DEFINITION, arr, geometry_bohr, header,
+from common import (TIMING_NOTE, timed, timing_summary, SCF_COMMON, SCF_COMMON_DOC, MULTIPOLE_DEFINITION, arr, geometry_bohr, header,
                     make_molecule, multipoles, psi4, reset, spin_squared, write_json, np)
 
 MP2_OPTS = {"mp2_type": "conv", "qc_module": "occ"}
@@ -167,20 +166,19 @@ def dipole_case(name, gkey, basis, puream):
 def benzene_timing():
     psi4.set_num_threads(1)
     geom = geometry_bohr("benzene")
-    t0 = time.time()
-    e, wfn, _ = mp2_run(geom, 0, 1, "cc-pvdz", True, "rhf", False, tag="benzene_timing")
-    wall = time.time() - t0
-    print("benzene mp2 1 thread", wall)
-    return [{
+    (e, wfn, _), recs = timed(lambda: mp2_run(geom, 0, 1, "cc-pvdz", True, "rhf", False, tag="benzene_timing"), 3)
+    t = {
         "what": "psi4.energy('mp2') conventional RMP2/cc-pVDZ benzene, all electrons, scf_type pk, "
                 "mp2_type conv, qc_module occ, settings as common_settings; wall time of the whole call "
                 "(integrals, SCF, MO transformation, MP2)",
         "threads": 1,
-        "wall_seconds": round(wall, 3),
         "scf_energy_hartree": float(psi4.variable("SCF TOTAL ENERGY")),
         "mp2_total_energy_hartree": float(e),
         "mp2_correlation_energy_hartree": float(psi4.variable("MP2 CORRELATION ENERGY")),
-    }]
+    }
+    t.update(timing_summary(recs))
+    print("benzene mp2 1 thread", t["wall_seconds_min"], t["cpu_seconds_min"])
+    return [t]
 
 
 def main():
@@ -209,7 +207,7 @@ def main():
     doc["cases"] = cases
     doc["dipole_cases"] = dips
     doc["timings"] = {
-        "note": "measured by this script on the machine named in 'machine' (2 cores) at 'date'",
+        "note": "measured by this script on the machine named in 'machine'. " + TIMING_NOTE,
         "benzene_rmp2_ccpvdz": benzene_timing(),
     }
     write_json("mp2.json", doc)

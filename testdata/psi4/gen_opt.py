@@ -11,7 +11,7 @@ import os
 import sys
 import time
 
-from common import (ANGSTROM_TO_BOHR, HERE, SCF_COMMON, SCF_COMMON_DOC, arr, header, make_molecule, psi4,
+from common import (ANGSTROM_TO_BOHR, HERE, TIMING_NOTE, timed, timing_summary, SCF_COMMON, SCF_COMMON_DOC, arr, header, make_molecule, psi4,
                     reset, write_json, np)
 
 B2A = psi4.constants.bohr2angstroms  # 0.52917721067 in psi4 1.3.2
@@ -141,18 +141,21 @@ def run_opt(name, skey, method, basis, puream, extra):
 def main():
     if len(sys.argv) > 1 and sys.argv[1] == "timing":
         psi4.set_num_threads(1)
-        t = run_opt("butadiene_hf_631gs", "butadiene", "scf", "6-31g*", False, {})
+        t, recs = timed(lambda: run_opt("butadiene_hf_631gs", "butadiene", "scf", "6-31g*", False, {}), 2)
         t.pop("wall_seconds_note")
+        t.pop("wall_seconds")
         path = os.path.join(HERE, "opt_geometries.json")
         doc = json.load(open(path))
-        doc["timings"] = {"butadiene_hf_631gs_optimisation": {
-            "note": "psi4.optimize('scf') trans-1,3-butadiene (10 atoms) RHF/6-31G* (Cartesian d) from a rough "
+        timing = {
+            "what": "psi4.optimize('scf') trans-1,3-butadiene (10 atoms) RHF/6-31G* (Cartesian d) from a rough "
                     "planar start geometry, same options as the cases (gau_verytight, scf_type pk, e/d_convergence "
-                    "1e-12/1e-10), 1 thread, measured by 'gen_opt.py timing' with the machine (2 cores) otherwise idle",
-            "timing_date": time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime()),
+                    "1e-12/1e-10), 1 thread, whole optimisation",
+            "note": TIMING_NOTE,
             "threads": 1,
-            "wall_seconds": t["wall_seconds"],
-            "result": t}}
+        }
+        timing.update(timing_summary(recs))
+        timing["result"] = t
+        doc["timings"] = {"butadiene_hf_631gs_optimisation": timing}
         write_json("opt_geometries.json", doc)
         return
     nthreads = int(os.environ.get("GEN_OPT_THREADS", "2"))

@@ -3,9 +3,7 @@ RHF/UHF/ROHF check values from psi4, plus a benzene RHF/cc-pVDZ timing.
 
 Run: cd testdata/psi4 && /usr/bin/python3 gen_scf.py
 """
-import time
-
-from common import (SCF_COMMON, SCF_COMMON_DOC, MULTIPOLE_DEFINITION, arr, geometry_bohr,
+from common import (TIMING_NOTE, timed, timing_summary, SCF_COMMON, SCF_COMMON_DOC, MULTIPOLE_DEFINITION, arr, geometry_bohr,
                     header, make_molecule, multipoles, psi4, reset, spin_squared, write_json, np)
 
 # name, geometry key, charge, multiplicity, basis, puream, reference
@@ -84,24 +82,27 @@ def benzene_timing():
     timings = []
     for nthreads in (1, 2):
         psi4.set_num_threads(nthreads)
-        reset("gen_scf_benzene_timing_%d.out" % nthreads)
         geom = geometry_bohr("benzene")
-        mol = make_molecule(geom, 0, 1, "benzene")
-        opts = dict(SCF_COMMON)
-        opts.update({"basis": "cc-pvdz", "puream": True, "reference": "rhf"})
-        psi4.set_options(opts)
-        t0 = time.time()
-        e = psi4.energy("scf", molecule=mol)
-        wall = time.time() - t0
-        timings.append({
+
+        def job():
+            reset("gen_scf_benzene_timing_%d.out" % nthreads)
+            mol = make_molecule(geom, 0, 1, "benzene")
+            opts = dict(SCF_COMMON)
+            opts.update({"basis": "cc-pvdz", "puream": True, "reference": "rhf"})
+            psi4.set_options(opts)
+            return psi4.energy("scf", molecule=mol)
+
+        e, recs = timed(job, 3)
+        t = {
             "what": "psi4.energy('scf') RHF/cc-pVDZ benzene, scf_type pk, settings as common_settings, "
                     "wall time of the whole call (integrals + SAD guess + SCF iterations)",
             "threads": nthreads,
-            "wall_seconds": round(wall, 3),
             "energy_total_hartree": float(e),
             "scf_iterations": int(psi4.variable("SCF ITERATIONS")),
-        })
-        print("benzene threads", nthreads, wall)
+        }
+        t.update(timing_summary(recs))
+        timings.append(t)
+        print("benzene threads", nthreads, t["wall_seconds_min"], t["cpu_seconds_min"])
     psi4.set_num_threads(1)
     return timings
 
@@ -127,8 +128,7 @@ def main():
     doc["common_settings"] = common
     doc["cases"] = cases
     doc["timings"] = {
-        "note": "measured by this script on the machine named in 'machine' (2 cores) at 'date'; "
-                "psi4.set_num_threads(n)",
+        "note": "measured by this script on the machine named in 'machine'; psi4.set_num_threads(n). " + TIMING_NOTE,
         "benzene_rhf_ccpvdz": benzene_timing(),
     }
     write_json("scf_energies.json", doc)
