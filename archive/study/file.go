@@ -431,6 +431,9 @@ func (e LevelEntry) level(method, basisName string, single bool) (*Level, error)
 	id := e.ID
 	if id == "" {
 		id = mname + "/" + strings.TrimSpace(basisName)
+	} else {
+		// A named level is shown by its name: several may share method and basis.
+		label = strings.TrimSpace(id) + " (" + label + ")"
 	}
 	return &Level{ID: strings.TrimSpace(id), Label: label, Request: r, family: info.Family}, nil
 }

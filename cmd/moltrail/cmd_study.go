@@ -497,4 +497,3 @@ func studyReport(plan *study.Plan, sum *study.Summary, r studyRun, stderr io.Wri
 	return tab, &studyReportInfo{Out: r.reportOut, Bytes: buf.Len(), Fingerprint: report.Fingerprint(tab, chosen, opts),
 		Records: len(chosen), Deviations: len(tab.Deviations), Flagged: flagged, RefSet: tab.RefSet.Name}, nil
 }
-
