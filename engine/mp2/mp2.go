@@ -110,6 +110,25 @@ func (r *Result) SCSCorrelationHartree() float64 {
 // Run computes MP2 on the converged RHF or UHF reference ref of mol in the
 // basis mb (the basis ref was computed in; its ERI engine is reused).
 func Run(mol *molecule.Molecule, mb *basis.Molecular, ref *scf.Result, opt Options) (*Result, error) {
+	p, err := newProblem(mol, mb, ref, opt)
+	if err != nil {
+		return nil, err
+	}
+	res, err := p.solve(opt)
+	if err != nil {
+		return nil, err
+	}
+	res.Reference = ref.Reference
+	res.SCFEnergyHartree = ref.Energy
+	if res.RelaxedDa != nil {
+		res.RelaxedDa.AddSym(res.RelaxedDa, ref.Da)
+		res.RelaxedDb.AddSym(res.RelaxedDb, ref.Db)
+	}
+	return res, nil
+}
+
+// newProblem checks the reference and sets up the calculation.
+func newProblem(mol *molecule.Molecule, mb *basis.Molecular, ref *scf.Result, opt Options) (*problem, error) {
 	if mol == nil || mb == nil || ref == nil {
 		return nil, fmt.Errorf("mp2: molecule, basis and SCF reference are required")
 	}
@@ -153,17 +172,7 @@ func Run(mol *molecule.Molecule, mb *basis.Molecular, ref *scf.Result, opt Optio
 	if p.restricted {
 		p.spin[1] = p.spin[0]
 	}
-	res, err := p.solve(opt)
-	if err != nil {
-		return nil, err
-	}
-	res.Reference = ref.Reference
-	res.SCFEnergyHartree = ref.Energy
-	if res.RelaxedDa != nil {
-		res.RelaxedDa.AddSym(res.RelaxedDa, ref.Da)
-		res.RelaxedDb.AddSym(res.RelaxedDb, ref.Db)
-	}
-	return res, nil
+	return p, nil
 }
 
 // solve runs the problem; relaxed densities in the result are the

@@ -154,6 +154,12 @@ func (p *problem) run() ([2]*accum, int, error) {
 	if mem <= 0 {
 		mem = DefaultMemoryBytes
 	}
+	var sp *storedPlan
+	if src, ok := p.eri.(storedSource); ok {
+		if st := src.Stored(); st != nil {
+			sp = &storedPlan{st: st}
+		}
+	}
 	passes := 0
 	for rho := 0; rho < nspin; rho++ {
 		a := p.newAccum(rho)
@@ -176,9 +182,17 @@ func (p *problem) run() ([2]*accum, int, error) {
 			nb = nact
 		}
 		buf := make([]float64, nb*nP*npair)
+		if sp != nil && sp.slabs == nil {
+			slab := min(max(mem-int64(len(buf))*8, minSlabBytes), maxSlabBytes)
+			sp = newStoredPlan(sp.st, n, slab)
+		}
 		for j0 := p.frozen; j0 < p.spin[rho].nocc; j0 += nb {
 			j1 := min(j0+nb, p.spin[rho].nocc)
-			p.halfTransform(rho, j0, j1, pStart, nP, buf)
+			if sp != nil {
+				p.halfTransformStored(sp, rho, j0, j1, pStart, nP, buf)
+			} else {
+				p.halfTransform(rho, j0, j1, pStart, nP, buf)
+			}
 			passes++
 			parts := make([]*accum, j1-j0)
 			p.parallel(j1-j0, func(w, jj int, scr *scratch) {
