@@ -14,17 +14,23 @@
 //	(S. Grimme, J. Chem. Phys. 118, 9095 (2003)).
 //
 // Transformation. For a batch of active occupied orbitals j (sized to the
-// memory budget), the AO integrals are computed shell quartet by shell
-// quartet and the half-transformed (j p|λσ) are formed (p over the
+// memory budget), the half-transformed (j p|λσ) are formed (p over the
 // virtual orbitals for energies, over all orbitals for the relaxed
 // density; λ ≥ σ packed); then, orbital j by orbital j, (j p|k b) and the
-// amplitudes. Cost O(o N⁴) for the first two quarters, O(o² N³) after;
-// memory: the batch buffer (≥ one j: N·N(N+1)/2 doubles, 62 MiB at
-// N = 250) plus O(o v N) per worker. The full AO or MO tensor is never
-// stored, so energies of 250 basis functions fit in 2 GiB with the default
-// budget. The same loop accumulates every piece of the relaxed density
-// (relaxed.go), so the relaxed density needs no second integral pass; the
-// Z-vector equations are then solved with one J/K build per iteration.
+// amplitudes. The AO integrals come from the SCF's engine: read from its
+// in-core store when it holds them (stored.go: slabs of ket pairs, 8-fold
+// symmetry, quarter transformations as dense matrix products), otherwise
+// recomputed shell quartet by shell quartet (direct). Cost O(o N⁴) for
+// the first two quarters, O(o² N³) after; memory: the batch buffer (≥ one
+// j: N·N(N+1)/2 doubles, 62 MiB at N = 250) plus O(o v N) per worker, and
+// on the in-core path a slab buffer of at most 256 MiB (what the budget
+// leaves, at least 16 MiB or one pair class). MP2 itself never holds the
+// full AO or MO tensor, so energies of 250 basis functions (whose
+// integrals do not fit the engine's default in-core budget) fit in 2 GiB
+// with the default budget. The same loop accumulates every piece of the
+// relaxed density (relaxed.go), so the relaxed density needs no second
+// integral pass; the Z-vector equations are then solved with one J/K
+// build per iteration.
 //
 // Determinism: every quantity is either written by one worker only or
 // summed over occupied orbitals in index order, so the result has the same
