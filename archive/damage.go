@@ -7,7 +7,9 @@ import (
 	"io"
 	"os"
 	"path/filepath"
-	"strings"
+	"slices"
+
+	badger "github.com/dgraph-io/badger/v4"
 )
 
 // ErrDamaged says the archive's files are damaged so that it cannot be
@@ -59,23 +61,41 @@ func checkDir(dir string, readOnly bool) error {
 	return nil
 }
 
-// checkTables checks the footer of every table file (*.sst) in dir.
-// badger finds a table's index through two lengths stored at the end of
-// the file; when a truncated or overwritten file makes them point outside
-// the file, badger panics in a goroutine of its own, which no caller can
-// recover, so the bounds are checked here first. The index itself carries
-// a checksum that badger verifies.
+// checkTables checks the footer of every table file (*.sst) that the
+// manifest lists. badger finds a table's index through two lengths stored
+// at the end of the file; when a truncated or overwritten file makes them
+// point outside the file, badger panics in a goroutine of its own, which
+// no caller can recover, so the bounds are checked here first. The index
+// itself carries a checksum that badger verifies. Nothing is checked
+// while another process holds the archive (its tables may be half
+// written; badger.Open then reports the lock), and table files the
+// manifest does not list (left by a crash; badger removes them) are not
+// looked at.
 func checkTables(dir string) error {
-	ents, err := os.ReadDir(dir)
-	if err != nil {
-		return nil // badger reports unreadable directories itself
+	unlock, ok := lockShared(dir)
+	if !ok {
+		return nil
 	}
-	for _, e := range ents {
-		if e.IsDir() || !strings.HasSuffix(e.Name(), ".sst") {
-			continue
-		}
-		if what := tableFooterProblem(filepath.Join(dir, e.Name())); what != "" {
-			return &sentinelError{ErrDamaged, fmt.Sprintf("archive %s is damaged: table file %s %s; restore it from a copy or rebuild it from an export", dir, e.Name(), what)}
+	defer unlock()
+	fp, err := os.Open(filepath.Join(dir, "MANIFEST"))
+	if err != nil {
+		return nil // a new archive, or one badger will report on
+	}
+	opts := badgerOptions(dir, true)
+	m, _, err := badger.ReplayManifestFile(fp, opts.ExternalMagicVersion, opts)
+	fp.Close()
+	if err != nil {
+		return nil // badger reports a damaged manifest itself
+	}
+	ids := make([]uint64, 0, len(m.Tables))
+	for id := range m.Tables {
+		ids = append(ids, id)
+	}
+	slices.Sort(ids)
+	for _, id := range ids {
+		name := fmt.Sprintf("%06d.sst", id)
+		if what := tableFooterProblem(filepath.Join(dir, name)); what != "" {
+			return &sentinelError{ErrDamaged, fmt.Sprintf("archive %s is damaged: table file %s %s; restore it from a copy or rebuild it from an export", dir, name, what)}
 		}
 	}
 	return nil

@@ -83,10 +83,19 @@ func TestOpenRefusesUnfitPlaces(t *testing.T) {
 	if ents, _ := os.ReadDir(other); len(ents) != 1 {
 		t.Errorf("a refused open wrote into the directory: %d entries", len(ents))
 	}
-	// The undamaged original still opens.
+	// The undamaged original still opens, also with a half-written table
+	// file that the manifest does not list (as a crash leaves one).
+	os.WriteFile(filepath.Join(good, "000999.sst"), []byte("xyz"), 0o644)
 	st, err := Open(good, OpenOptions{ReadOnly: true})
 	if err != nil {
 		t.Fatal(err)
 	}
 	st.Close()
+	// While a writer holds the archive its tables are not judged (they
+	// may be half written); the reader is told that it is in use.
+	w := openRW(t, good)
+	defer w.Close()
+	if _, err := Open(good, OpenOptions{ReadOnly: true, Wait: -1}); !errors.Is(err, ErrInUse) {
+		t.Fatalf("reader beside a writer: got %v, want ErrInUse", err)
+	}
 }
