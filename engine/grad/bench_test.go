@@ -6,6 +6,7 @@ import (
 
 	"moltrail/engine/basis"
 	"moltrail/engine/molecule"
+	"moltrail/engine/opt"
 	"moltrail/engine/scf"
 )
 
@@ -68,4 +69,42 @@ func BenchmarkHFEnergy631Gs(b *testing.B) {
 		}
 	}
 	b.ReportMetric((cpuSeconds()-c0)/float64(b.N), "cpu-s/op")
+}
+
+// BenchmarkHFOptimisation631Gs optimises the rough ten-atom geometry at
+// RHF/6-31G* with analytic gradients and the engine's default criteria
+// (forces 3e-5/2e-5 Eh/bohr, step 1e-4 bohr, energy 1e-8 Eh).
+func BenchmarkHFOptimisation631Gs(b *testing.B) {
+	mol := butadiene()
+	set, err := basis.Builtin("6-31g*")
+	if err != nil {
+		b.Fatal(err)
+	}
+	eg := func(x []float64) (float64, []float64, error) {
+		m := opt.WithCoordinates(mol, x)
+		mb, err := basis.Build(set, m, "")
+		if err != nil {
+			return 0, nil, err
+		}
+		sr, err := scf.Run(m, mb, scf.Options{Reference: "rhf"})
+		if err != nil {
+			return 0, nil, err
+		}
+		g, err := SCF(m, mb, sr, Options{})
+		return sr.Energy, g, err
+	}
+	c0 := cpuSeconds()
+	var res *opt.Result
+	for i := 0; i < b.N; i++ {
+		res, err = opt.Minimize(mol, eg, opt.Settings{MaxForce: 3e-5, RMSForce: 2e-5, MaxStep: 1e-4, EnergyChange: 1e-8, MaxSteps: 100, TrustRadius: 0.3})
+		if err != nil {
+			b.Fatal(err)
+		}
+	}
+	b.ReportMetric((cpuSeconds()-c0)/float64(b.N), "cpu-s/op")
+	b.ReportMetric(float64(len(res.Steps)), "steps")
+	if !res.Converged {
+		b.Fatalf("not converged after %d steps: %s", len(res.Steps), res.Reason)
+	}
+	b.Logf("converged in %d steps, E = %.8f Eh", len(res.Steps), res.Energy)
 }
