@@ -163,3 +163,51 @@ func TestKohnShamGradients(t *testing.T) {
 		t.Run(c.name, func(t *testing.T) { checkAgainstFD(t, c) })
 	}
 }
+
+// The same bits whatever the thread count.
+func TestGradientThreadDeterminism(t *testing.T) {
+	mol := water()
+	mb := build(t, "6-31g*", mol, basis.Cartesian)
+	sr, err := scf.Run(mol, mb, tightSCF("rhf"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	g1, err := SCF(mol, mb, sr, Options{Threads: 1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	g3, err := SCF(mol, mb, sr, Options{Threads: 3})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for k := range g1 {
+		if g1[k] != g3[k] {
+			t.Fatalf("component %d: %.17g with one thread, %.17g with three", k, g1[k], g3[k])
+		}
+	}
+}
+
+// Results that have no gradient are refused with an error.
+func TestGradientRefusals(t *testing.T) {
+	mol := water()
+	mb := build(t, "sto-3g", mol, basis.Spherical)
+	sr, err := scf.Run(mol, mb, scf.Options{Reference: "rhf"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	bad := *sr
+	bad.Converged = false
+	if _, err := SCF(mol, mb, &bad, Options{}); err == nil {
+		t.Error("a non-converged SCF was accepted")
+	}
+	ks := *sr
+	ks.Reference = "rks"
+	if _, err := SCF(mol, mb, &ks, Options{}); err == nil {
+		t.Error("a Kohn–Sham result without its functional was accepted")
+	}
+	moved := mol.Clone()
+	moved.Atoms[0].PosBohr[0] += 0.1
+	if _, err := SCF(moved, mb, sr, Options{}); err == nil {
+		t.Error("a basis placed on another geometry was accepted")
+	}
+}

@@ -401,7 +401,19 @@ func TwoElectronGradient(mb *basis.Molecular, Da, Db *mat.SymDense, coulomb, exc
 	boysOnce.Do(initBoys)
 	ns := len(mb.Shells)
 	trans := shellTransforms(mb)
-	pairs := make([]*dPair, ns*(ns+1)/2)
+	// shell-pair bounds first: pairs that can never pass the Schwarz test
+	// are not prepared (their derivative data would dominate the memory)
+	npair := ns * (ns + 1) / 2
+	q := make([]float64, npair)
+	qmax := 0.0
+	for i := 0; i < ns; i++ {
+		for j := 0; j <= i; j++ {
+			k := i*(i+1)/2 + j
+			q[k] = bounds.Schwarz(i, j)
+			qmax = math.Max(qmax, q[k])
+		}
+	}
+	pairs := make([]*dPair, npair)
 	{
 		var next atomic.Int64
 		var wg sync.WaitGroup
@@ -410,19 +422,16 @@ func TwoElectronGradient(mb *basis.Molecular, Da, Db *mat.SymDense, coulomb, exc
 			go func() {
 				defer wg.Done()
 				for {
-					k := int(next.Add(1) - 1)
-					if k >= len(pairs) {
+					i := int(next.Add(1) - 1)
+					if i >= ns {
 						return
 					}
-					i := int((math.Sqrt(float64(8*k+1)) - 1) / 2)
-					for i*(i+1)/2 > k {
-						i--
+					for j := 0; j <= i; j++ {
+						k := i*(i+1)/2 + j
+						if q[k]*qmax >= thr {
+							pairs[k] = makeDPair(mb, i, j, trans[i], trans[j])
+						}
 					}
-					for (i+1)*(i+2)/2 <= k {
-						i++
-					}
-					j := k - i*(i+1)/2
-					pairs[k] = makeDPair(mb, i, j, trans[i], trans[j])
 				}
 			}()
 		}
@@ -432,12 +441,6 @@ func TwoElectronGradient(mb *basis.Molecular, Da, Db *mat.SymDense, coulomb, exc
 	dt := make([]float64, n*n)
 	for k := range dt {
 		dt[k] = da[k] + db[k]
-	}
-	q := make([]float64, len(pairs))
-	qmax := 0.0
-	for k, pd := range pairs {
-		q[k] = bounds.Schwarz(pd.i, pd.j)
-		qmax = math.Max(qmax, q[k])
 	}
 	acc := make([][]float64, numGradChunks)
 	var next atomic.Int64
@@ -455,11 +458,11 @@ func TwoElectronGradient(mb *basis.Molecular, Da, Db *mat.SymDense, coulomb, exc
 				g := make([]float64, 3*natoms)
 				// the chunk's bra pairs, largest index (most ket pairs) first
 				for k := len(pairs) - 1 - c; k >= 0; k -= numGradChunks {
-					if q[k]*qmax < thr {
+					if pairs[k] == nil {
 						continue
 					}
 					for l := 0; l <= k; l++ {
-						if q[k]*q[l] < thr {
+						if pairs[l] == nil || q[k]*q[l] < thr {
 							continue
 						}
 						quartetGrad(mb, pairs[k], pairs[l], k == l, q[k]*q[l], thr, coulomb, exchange, dt, da, db, n, w, g)
