@@ -324,6 +324,16 @@ func sideGrad(P, Q *dPair, G []float64, gabs float64, w *gradWork) [6]float64 {
 			pref := twoPi52 * P.kp[a] * Q.kp[c] / math.Sqrt(p+q)
 			hermiteR(L, alpha, pq, fb, pref, r, tmp)
 			kc := kg[c*nf*nhq : (c+1)*nf*nhq]
+			if nhq == 1 {
+				// s–s ket: one Hermite term
+				for h := 0; h < nh1; h++ {
+					rv := r[sum[h*nph]]
+					for f, v := range kc {
+						x[f*nh1+h] += rv * v
+					}
+				}
+				continue
+			}
 			for h := 0; h < nh1; h++ {
 				base := sum[h*nph : h*nph+nhq]
 				for k, hb := range base {
