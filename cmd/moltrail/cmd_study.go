@@ -7,6 +7,7 @@ import (
 	"io"
 	"os"
 	"os/signal"
+	"reflect"
 	"sort"
 	"strings"
 	"sync"
@@ -56,11 +57,7 @@ type studyRun struct {
 }
 
 func cmdStudy(args []string, stdout, stderr io.Writer) int {
-	fs := newFlags("study", stderr, "[flags] STUDY.json")
-	fs.Usage = func() {
-		fmt.Fprintf(stderr, "usage: moltrail study [flags] STUDY.json\n\n%s\nflags:\n", studyHelp)
-		fs.PrintDefaults()
-	}
+	fs := newFlags("study", stderr, "[flags] STUDY.json\n\n"+studyHelp)
 	af := addArchiveFlags(fs)
 	jobs := fs.Int("jobs", 1, "calculations run at once; each gets max(1, cores/jobs) threads")
 	threads := fs.Int("threads", 0, "threads per calculation (0 = max(1, cores/jobs)); never changes a number")
@@ -231,9 +228,20 @@ type studyProgress struct {
 	run    int
 }
 
+// isTerminal reports whether w is (or wraps, as an embedded Writer) a terminal.
 func isTerminal(w io.Writer) bool {
-	f, ok := w.(*os.File)
-	return ok && term.IsTerminal(int(f.Fd()))
+	if f, ok := w.(*os.File); ok {
+		return term.IsTerminal(int(f.Fd()))
+	}
+	v := reflect.ValueOf(w)
+	if v.Kind() == reflect.Pointer && !v.IsNil() && v.Elem().Kind() == reflect.Struct {
+		if f := v.Elem().FieldByName("Writer"); f.IsValid() && f.CanInterface() {
+			if inner, ok := f.Interface().(io.Writer); ok && inner != w {
+				return isTerminal(inner)
+			}
+		}
+	}
+	return false
 }
 
 func newStudyProgress(w io.Writer, cmd string) *studyProgress {
@@ -301,8 +309,8 @@ func (p *studyProgress) event(e study.Event) {
 			p.max = e.Progress.ToCompute
 			p.bar.ChangeMax(p.max)
 		}
-		p.bar.Describe(p.describe())
 		p.bar.Set(e.Progress.ComputedSoFar)
+		p.bar.Describe(p.describe())
 	case study.EventStopping:
 		if p.bar != nil {
 			p.bar.Describe(p.describe() + " · stopping")

@@ -243,8 +243,8 @@ func TestStudyBadInput(t *testing.T) {
 		t.Errorf("error does not name the file and the molecule: %q", r.stderr)
 	}
 	h := moltrail(t, nil, "study", "--help")
-	if h.code != exitOK || !strings.Contains(h.stderr, "max(1, cores/N)") {
-		t.Errorf("--help does not say how cores are shared: exit %d\n%s", h.code, h.stderr)
+	if h.code != exitOK || !strings.Contains(h.stdout+h.stderr, "max(1, cores/N)") {
+		t.Errorf("--help does not say how cores are shared: exit %d\n%s%s", h.code, h.stdout, h.stderr)
 	}
 }
 
