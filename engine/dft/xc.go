@@ -6,7 +6,6 @@ import (
 	"runtime"
 	"sync"
 
-	"gonum.org/v1/gonum/floats"
 	"gonum.org/v1/gonum/mat"
 
 	"moltrail/engine/basis"
@@ -27,8 +26,23 @@ type XC struct {
 	bfuncs [][]int
 	lmax   int
 	nchunk int
+	// cache[b] holds batch b's basis values between calls when the batch
+	// fits the cache budget (phi == nil: recomputed each time)
+	cache []batchCache
 
 	electrons float64
+}
+
+// basisCacheBytes is the memory that basis values (and gradients) kept
+// on the grid between Compute calls may take; batches beyond it are
+// evaluated afresh each call. Which batches are kept depends only on the
+// problem, and cached values are the same bits as recomputed ones.
+var basisCacheBytes = 1 << 30
+
+type batchCache struct {
+	phi    []float64
+	grad   [3][]float64
+	filled bool
 }
 
 // NewXC prepares the XC integration of a functional (see NewFunctional for
@@ -66,6 +80,22 @@ func NewXC(mol *molecule.Molecule, mb *basis.Molecular, functionalDef string, sp
 				}
 			}
 		}
+	}
+	x.cache = make([]batchCache, len(g.batches))
+	arrays := 1
+	if fn.gga {
+		arrays = 4
+	}
+	used := 0
+	for b := range g.batches {
+		_, ld, _, npad := x.batchDims(b)
+		size := 8 * arrays * ld * npad
+		if used+size > basisCacheBytes {
+			break
+		}
+		used += size
+		c := &x.cache[b]
+		c.phi = make([]float64, 0) // slot reserved; allocated on first use
 	}
 	// a fixed number of chunks (from the problem size only, never from the
 	// thread count), each with its own accumulators, summed in order
@@ -145,7 +175,7 @@ func (x *XC) Compute(Da, Db *mat.SymDense) (float64, *mat.SymDense, *mat.SymDens
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
-			w := x.newWork(restricted)
+			w := x.newWork()
 			for c := range jobs {
 				a := &acc[c]
 				a.va = make([]float64, n*n)
@@ -198,14 +228,17 @@ func (x *XC) Compute(Da, Db *mat.SymDense) (float64, *mat.SymDense, *mat.SymDens
 	return exc, Va, mat.NewSymDense(n, vb), nil
 }
 
-// work is one worker's scratch space.
+// work is one worker's scratch space. Per-batch arrays of basis values
+// are row-major with ld = nl rounded up to 8 columns and the rows rounded
+// up to 4, the padding zero, as the block products want them.
 type work struct {
-	phi        []float64
+	phi        []float64 // npad × ld
 	grad       [3][]float64
-	xa, xb     []float64 // Φ·D
-	za, zb     []float64 // weighted potential rows
-	dloc       []float64
-	vloc       []float64
+	phiT       []float64 // nl × npad: Φ column-major
+	x          []float64 // npad × ld: Φ·D
+	z          []float64 // npad × ld: weighted potential rows
+	dloc       []float64 // nl × ld
+	vloc       []float64 // nl4 × ld
 	rho, sigma []float64
 	e, vrho    []float64
 	vsigma     []float64
@@ -213,25 +246,32 @@ type work struct {
 	ew         *evalWork
 }
 
-func (x *XC) newWork(restricted bool) *work {
-	m := maxBatch
+// batchDims are a batch's array sizes: nl functions padded to ld columns,
+// np points padded to npad rows.
+func (x *XC) batchDims(b int) (nl, ld, np, npad int) {
+	bt := x.grid.batches[b]
+	nl = len(x.bfuncs[b])
+	np = bt.end - bt.start
+	return nl, roundUp(nl, blockCols), np, roundUp(np, blockRows)
+}
+
+func (x *XC) newWork() *work {
+	m := roundUp(maxBatch, blockRows)
 	nf := 0
 	for _, f := range x.bfuncs {
 		nf = max(nf, len(f))
 	}
+	ld := roundUp(nf, blockCols)
 	w := &work{
-		phi: make([]float64, m*nf), xa: make([]float64, m*nf), za: make([]float64, m*nf),
-		dloc: make([]float64, nf*nf), vloc: make([]float64, nf*nf),
+		phi: make([]float64, m*ld), phiT: make([]float64, nf*m), x: make([]float64, m*ld), z: make([]float64, m*ld),
+		dloc: make([]float64, nf*ld), vloc: make([]float64, ld*ld),
 		rho: make([]float64, 2*m), sigma: make([]float64, 3*m),
 		e: make([]float64, m), vrho: make([]float64, 2*m), vsigma: make([]float64, 3*m),
 		ew: newEvalWork(x.lmax, m, x.aexps.maxDistinct()),
 	}
-	if !restricted {
-		w.xb, w.zb = make([]float64, m*nf), make([]float64, m*nf)
-	}
 	if x.fn.gga {
 		for d := 0; d < 3; d++ {
-			w.grad[d] = make([]float64, m*nf)
+			w.grad[d] = make([]float64, m*ld)
 			w.gra[d] = make([]float64, m)
 			w.grb[d] = make([]float64, m)
 		}
@@ -239,59 +279,120 @@ func (x *XC) newWork(restricted bool) *work {
 	return w
 }
 
-// density computes X = Φ·D_loc and ρ_p = Σ X∘Φ, ∇ρ_p = 2 Σ X∘∇Φ.
-//
-// Function values below the basis cutoff are left out of the product.
-func (x *XC) density(d []float64, funcs []int, np, nl int, w *work, X []float64, rho []float64, rstride int, grho [3][]float64) {
-	n := x.nbf
-	cut := x.grid.Spec.BasisCut
-	for i, fi := range funcs {
-		for j, fj := range funcs {
-			w.dloc[i*nl+j] = d[fi*n+fj]
+// basisValues returns the batch's basis values (and gradients for GGAs)
+// in the padded layout: from the cache when the batch has a slot there
+// (filled on first use), computed into the worker's arrays otherwise.
+func (x *XC) basisValues(b int, w *work) (phi []float64, grad [3][]float64) {
+	if c := &x.cache[b]; c.phi != nil {
+		if c.filled {
+			return c.phi, c.grad
 		}
-	}
-	// X = Φ·D_loc, row by row (serial: the workers already use all cores)
-	for p := 0; p < np; p++ {
-		xr := X[p*nl : (p+1)*nl]
-		for k := range xr {
-			xr[k] = 0
-		}
-		for k, f := range w.phi[p*nl : (p+1)*nl] {
-			if math.Abs(f) > cut {
-				floats.AddScaled(xr, f, w.dloc[k*nl:(k+1)*nl])
+		_, ld, _, npad := x.batchDims(b)
+		c.phi = make([]float64, npad*ld)
+		if x.fn.gga {
+			for d := 0; d < 3; d++ {
+				c.grad[d] = make([]float64, npad*ld)
 			}
 		}
+		x.evalBatch(b, c.phi, c.grad, w)
+		c.filled = true
+		return c.phi, c.grad
 	}
+	_, ld, _, npad := x.batchDims(b)
+	phi = w.phi[:npad*ld]
+	if x.fn.gga {
+		for d := 0; d < 3; d++ {
+			grad[d] = w.grad[d][:npad*ld]
+		}
+	}
+	x.evalBatch(b, phi, grad, w)
+	return phi, grad
+}
+
+// evalBatch evaluates the batch's functions into padded arrays.
+func (x *XC) evalBatch(b int, phi []float64, grad [3][]float64, w *work) {
+	bt := x.grid.batches[b]
+	nl, ld, np, npad := x.batchDims(b)
+	evalShells(x.shells, x.aexps, x.blist[b], x.grid.X[bt.start:bt.end], x.grid.Y[bt.start:bt.end], x.grid.Z[bt.start:bt.end], ld, phi, grad, w.ew)
+	clearPad := func(a []float64) {
+		if a == nil {
+			return
+		}
+		for p := 0; p < np; p++ {
+			row := a[p*ld : (p+1)*ld]
+			for k := nl; k < ld; k++ {
+				row[k] = 0
+			}
+		}
+		for k := np * ld; k < npad*ld; k++ {
+			a[k] = 0
+		}
+	}
+	clearPad(phi)
+	for d := 0; d < 3; d++ {
+		clearPad(grad[d])
+	}
+}
+
+// density computes X = Φ·D_loc and ρ_p = Σ X∘Φ, ∇ρ_p = 2 Σ X∘∇Φ.
+func (x *XC) density(b int, d []float64, phi []float64, grad [3][]float64, w *work, rho []float64, rstride int, grho [3][]float64) {
+	n := x.nbf
+	funcs := x.bfuncs[b]
+	nl, ld, np, npad := x.batchDims(b)
+	dl := w.dloc[:nl*ld]
+	for i, fi := range funcs {
+		row := dl[i*ld : (i+1)*ld]
+		src := d[fi*n : (fi+1)*n]
+		for j, fj := range funcs {
+			row[j] = src[fj]
+		}
+		for j := nl; j < ld; j++ {
+			row[j] = 0
+		}
+	}
+	// Φ column-major for the block product
+	pt := w.phiT[:nl*npad]
+	for p := 0; p < npad; p++ {
+		row := phi[p*ld : p*ld+nl]
+		for k, v := range row {
+			pt[k*npad+p] = v
+		}
+	}
+	X := w.x[:npad*ld]
+	gemmCM(npad, ld, nl, pt, npad, dl, ld, X, ld, false)
 	for p := 0; p < np; p++ {
-		row := X[p*nl : (p+1)*nl]
-		ph := w.phi[p*nl : (p+1)*nl]
+		row := X[p*ld : p*ld+nl]
+		ph := phi[p*ld : p*ld+nl]
 		s := 0.0
 		for k, v := range row {
 			s += v * ph[k]
 		}
 		rho[p*rstride] = s
 		if grho[0] != nil {
-			for dd := 0; dd < 3; dd++ {
-				g := w.grad[dd][p*nl : (p+1)*nl]
-				t := 0.0
-				for k, v := range row {
-					t += v * g[k]
-				}
-				grho[dd][p] = 2 * t
+			gx := grad[0][p*ld : p*ld+nl]
+			gy := grad[1][p*ld : p*ld+nl]
+			gz := grad[2][p*ld : p*ld+nl]
+			var tx, ty, tz float64
+			for k, v := range row {
+				tx += v * gx[k]
+				ty += v * gy[k]
+				tz += v * gz[k]
 			}
+			grho[0][p], grho[1][p], grho[2][p] = 2*tx, 2*ty, 2*tz
 		}
 	}
 }
 
 // potential forms Z_pk = w_p (½ vρ_p φ_pk + G_p·∇φ_pk) and adds
-// Φᵀ Z + Zᵀ Φ to the upper triangle of v (function values below the basis
-// cutoff are left out of the product).
-func (x *XC) potential(funcs []int, np, nl int, wts, vr []float64, vrStride int, G [3][]float64, Z []float64, work *work, v []float64) {
-	cut := x.grid.Spec.BasisCut
+// Φᵀ Z + Zᵀ Φ to the upper triangle of v.
+func (x *XC) potential(b int, phi []float64, grad [3][]float64, wts, vr []float64, vrStride int, G [3][]float64, w *work, v []float64) {
+	funcs := x.bfuncs[b]
+	nl, ld, np, _ := x.batchDims(b)
+	Z := w.z[:np*ld]
 	for p := 0; p < np; p++ {
 		a := 0.5 * wts[p] * vr[p*vrStride]
-		z := Z[p*nl : (p+1)*nl]
-		ph := work.phi[p*nl : (p+1)*nl]
+		z := Z[p*ld : (p+1)*ld]
+		ph := phi[p*ld : (p+1)*ld]
 		if G[0] == nil {
 			for k := range z {
 				z[k] = a * ph[k]
@@ -299,55 +400,49 @@ func (x *XC) potential(funcs []int, np, nl int, wts, vr []float64, vrStride int,
 			continue
 		}
 		gx, gy, gz := wts[p]*G[0][p], wts[p]*G[1][p], wts[p]*G[2][p]
-		px := work.grad[0][p*nl : (p+1)*nl]
-		py := work.grad[1][p*nl : (p+1)*nl]
-		pz := work.grad[2][p*nl : (p+1)*nl]
+		px := grad[0][p*ld : (p+1)*ld]
+		py := grad[1][p*ld : (p+1)*ld]
+		pz := grad[2][p*ld : (p+1)*ld]
 		for k := range z {
 			z[k] = a*ph[k] + gx*px[k] + gy*py[k] + gz*pz[k]
 		}
 	}
-	// vloc = Φᵀ Z, accumulated point by point (serial, fixed order)
-	vl := work.vloc[:nl*nl]
-	for k := range vl {
-		vl[k] = 0
-	}
-	for p := 0; p < np; p++ {
-		z := Z[p*nl : (p+1)*nl]
-		for k, f := range work.phi[p*nl : (p+1)*nl] {
-			if math.Abs(f) > cut {
-				floats.AddScaled(vl[k*nl:(k+1)*nl], f, z)
-			}
-		}
-	}
+	// W = Φᵀ Z (Φ is its own column-major transpose); symmetric for LDA,
+	// where only the blocks on and above the diagonal are needed.
+	m := roundUp(nl, blockRows)
+	W := w.vloc[:m*ld]
+	lda := G[0] == nil
+	gemmCM(m, ld, np, phi, ld, Z, ld, W, ld, lda)
 	n := x.nbf
 	for i, fi := range funcs {
-		for j, fj := range funcs {
-			if fj < fi {
-				continue
+		vrow := v[fi*n : (fi+1)*n]
+		wrow := W[i*ld : (i+1)*ld]
+		for j := i; j < nl; j++ {
+			fj := funcs[j]
+			var s float64
+			if lda {
+				s = 2 * wrow[j]
+			} else {
+				s = wrow[j] + W[j*ld+i]
 			}
-			v[fi*n+fj] += work.vloc[i*nl+j] + work.vloc[j*nl+i]
+			// funcs increase, so fi ≤ fj: the upper triangle
+			vrow[fj] += s
 		}
 	}
 }
 
 func (x *XC) batch(b int, da, db []float64, acc *accum, w *work) error {
 	bt := x.grid.batches[b]
-	funcs := x.bfuncs[b]
-	nl := len(funcs)
-	if nl == 0 {
+	if len(x.bfuncs[b]) == 0 {
 		return nil
 	}
 	np := bt.end - bt.start
-	X, Y, Z, W := x.grid.X[bt.start:bt.end], x.grid.Y[bt.start:bt.end], x.grid.Z[bt.start:bt.end], x.grid.W[bt.start:bt.end]
+	W := x.grid.W[bt.start:bt.end]
 	gga := x.fn.gga
-	var grad [3][]float64
-	if gga {
-		grad = w.grad
-	}
-	evalShells(x.shells, x.aexps, x.blist[b], X, Y, Z, nl, w.phi, grad, w.ew)
+	phi, grad := x.basisValues(b, w)
 	cut := x.grid.Spec.DensityCut
 	if db == nil {
-		x.density(da, funcs, np, nl, w, w.xa, w.rho, 1, w.gra)
+		x.density(b, da, phi, grad, w, w.rho, 1, w.gra)
 		for p := 0; p < np; p++ {
 			acc.n += W[p] * w.rho[p]
 			if gga {
@@ -372,11 +467,11 @@ func (x *XC) batch(b int, da, db []float64, acc *accum, w *work) error {
 			}
 			G = w.gra
 		}
-		x.potential(funcs, np, nl, W, w.vrho, 1, G, w.za, w, acc.va)
+		x.potential(b, phi, grad, W, w.vrho, 1, G, w, acc.va)
 		return nil
 	}
-	x.density(da, funcs, np, nl, w, w.xa, w.rho, 2, w.gra)
-	x.density(db, funcs, np, nl, w, w.xb, w.rho[1:], 2, w.grb)
+	x.density(b, da, phi, grad, w, w.rho, 2, w.gra)
+	x.density(b, db, phi, grad, w, w.rho[1:], 2, w.grb)
 	for p := 0; p < np; p++ {
 		acc.n += W[p] * (w.rho[2*p] + w.rho[2*p+1])
 		if gga {
@@ -406,7 +501,7 @@ func (x *XC) batch(b int, da, db []float64, acc *accum, w *work) error {
 		}
 		Ga, Gb = w.gra, w.grb
 	}
-	x.potential(funcs, np, nl, W, w.vrho, 2, Ga, w.za, w, acc.va)
-	x.potential(funcs, np, nl, W, w.vrho[1:], 2, Gb, w.zb, w, acc.vb)
+	x.potential(b, phi, grad, W, w.vrho, 2, Ga, w, acc.va)
+	x.potential(b, phi, grad, W, w.vrho[1:], 2, Gb, w, acc.vb)
 	return nil
 }

@@ -159,3 +159,47 @@ func TestNewXCErrors(t *testing.T) {
 		t.Errorf("pbe0: exact exchange %g, definition %q", x.ExactExchange(), x.Definition())
 	}
 }
+
+// Basis values kept between calls (all, some or none of the batches) give
+// the same bits as values computed afresh, for LDA (upper-triangle
+// products) and GGA, restricted and unrestricted.
+func TestBasisCacheSameBits(t *testing.T) {
+	m := water()
+	saved := basisCacheBytes
+	defer func() { basisCacheBytes = saved }()
+	for _, def := range []string{"slater+vwn5", "pbe0"} {
+		var refE [2]float64
+		var refV [2]*mat.SymDense
+		for ib, budget := range []int{0, 200 << 10, 1 << 30} {
+			basisCacheBytes = budget
+			x, mb := coarseXC(t, m, def, 2)
+			kept := 0
+			for _, c := range x.cache {
+				if c.phi != nil {
+					kept++
+				}
+			}
+			switch {
+			case budget == 0 && kept != 0, budget == 1<<30 && kept != len(x.cache), budget == 200<<10 && (kept == 0 || kept == len(x.cache)):
+				t.Fatalf("%s: budget %d keeps %d of %d batches", def, budget, kept, len(x.cache))
+			}
+			da := testDensity(mb.NBasis, 5, 0.2)
+			db := testDensity(mb.NBasis, 4, 0.6)
+			for call := 0; call < 2; call++ {
+				for u, b := range []*mat.SymDense{da, db} {
+					e, va, _, err := x.Compute(da, b)
+					if err != nil {
+						t.Fatal(err)
+					}
+					if ib == 0 && call == 0 {
+						refE[u], refV[u] = e, va
+						continue
+					}
+					if e != refE[u] || !mat.Equal(va, refV[u]) {
+						t.Errorf("%s budget %d call %d unrestricted %v: E %.17g, uncached %.17g (or the potential differs)", def, budget, call, u == 1, e, refE[u])
+					}
+				}
+			}
+		}
+	}
+}

@@ -1,0 +1,60 @@
+#include "textflag.h"
+
+// func kernel4x8FMA(k int, a *float64, lda int, b *float64, ldb int, c *float64, ldc int)
+//
+// C[r][s] = Σ_p a[p·lda + r] · b[p·ldb + s], r < 4, s < 8, p < k (k ≥ 1),
+// summed in increasing p with fused multiply–adds.
+TEXT ·kernel4x8FMA(SB), NOSPLIT, $0-56
+	MOVQ k+0(FP), CX
+	MOVQ a+8(FP), SI
+	MOVQ lda+16(FP), R8
+	SHLQ $3, R8
+	MOVQ b+24(FP), DI
+	MOVQ ldb+32(FP), R9
+	SHLQ $3, R9
+	MOVQ c+40(FP), DX
+	MOVQ ldc+48(FP), R10
+	SHLQ $3, R10
+
+	VXORPD Y0, Y0, Y0
+	VXORPD Y1, Y1, Y1
+	VXORPD Y2, Y2, Y2
+	VXORPD Y3, Y3, Y3
+	VXORPD Y4, Y4, Y4
+	VXORPD Y5, Y5, Y5
+	VXORPD Y6, Y6, Y6
+	VXORPD Y7, Y7, Y7
+
+loop:
+	VMOVUPD (DI), Y8
+	VMOVUPD 32(DI), Y9
+	VBROADCASTSD (SI), Y10
+	VFMADD231PD Y8, Y10, Y0
+	VFMADD231PD Y9, Y10, Y1
+	VBROADCASTSD 8(SI), Y11
+	VFMADD231PD Y8, Y11, Y2
+	VFMADD231PD Y9, Y11, Y3
+	VBROADCASTSD 16(SI), Y12
+	VFMADD231PD Y8, Y12, Y4
+	VFMADD231PD Y9, Y12, Y5
+	VBROADCASTSD 24(SI), Y13
+	VFMADD231PD Y8, Y13, Y6
+	VFMADD231PD Y9, Y13, Y7
+	ADDQ R8, SI
+	ADDQ R9, DI
+	DECQ CX
+	JNZ  loop
+
+	VMOVUPD Y0, (DX)
+	VMOVUPD Y1, 32(DX)
+	ADDQ    R10, DX
+	VMOVUPD Y2, (DX)
+	VMOVUPD Y3, 32(DX)
+	ADDQ    R10, DX
+	VMOVUPD Y4, (DX)
+	VMOVUPD Y5, 32(DX)
+	ADDQ    R10, DX
+	VMOVUPD Y6, (DX)
+	VMOVUPD Y7, 32(DX)
+	VZEROUPPER
+	RET

@@ -1,0 +1,9 @@
+//go:build !amd64
+
+package dft
+
+var useFMA = false
+
+func kernel4x8(k int, a []float64, lda int, b []float64, ldb int, c []float64, ldc int) {
+	kernel4x8Go(k, a, lda, b, ldb, c, ldc)
+}
