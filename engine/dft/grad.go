@@ -10,25 +10,29 @@ import (
 
 // Nuclear gradient of the exchange–correlation energy.
 //
-// With the grid points moving rigidly with their atoms and the partition
-// weights held fixed, the only change of E_xc = Σ_p w_p e(ρ_p, σ_p) under a
-// displacement of atom A comes from the basis functions centred on A
-// (∂φ_μ/∂A = −∇φ_μ):
+// E_xc = Σ_p W_p e(ρ_p, σ_p) on a grid whose points move rigidly with
+// their atoms, W_p = ω_p w_G(r_p) with ω_p the atomic quadrature weight and
+// w_G = P_G/Σ_B P_B the Becke partition weight of the point's atom G. Its
+// derivative with respect to atom A has three parts:
 //
-//	∂E_xc/∂A_x = −2 Σ_σ Σ_p w_p Σ_{μ∈A} [ vρσ ∂_xφ_μ Xσ_μ
-//	              + Gσ · (∇∂_xφ_μ Xσ_μ + ∂_xφ_μ ∇Xσ_μ) ],
+//  1. basis functions centred on A (∂φ_μ/∂A = −∇φ_μ):
+//     −2 Σ_σ Σ_p W_p Σ_{μ∈A} [ vρσ ∂_xφ_μ Xσ_μ + Gσ · (∇∂_xφ_μ Xσ_μ + ∂_xφ_μ ∇Xσ_μ) ],
+//     Xσ_μ = Σ_ν Dσ_μν φ_ν, ∇Xσ_μ = Σ_ν Dσ_μν ∇φ_ν, Gσ the gradient
+//     coefficient of the potential (G = 2 vσ ∇ρ unpolarised; Gα = 2 vσαα ∇ρα
+//     + vσαβ ∇ρβ polarised);
+//  2. the points of A's own grid moving with it: Σ_{p∈A} W_p ∇_r e =
+//     Σ_{p∈A} W_p Σ_σ (vρσ ∇ρσ + ∇∇ρσ · Gσ);
+//  3. the partition weights: Σ_p ω_p e_p ∂w_G(r_p)/∂A, from the derivatives
+//     of Becke's cell functions with the size adjustment, through the atom
+//     positions and the point position (B. G. Johnson, P. M. W. Gill and
+//     J. A. Pople, J. Chem. Phys. 98, 5612 (1993), from memory).
 //
-// Xσ_μ = Σ_ν Dσ_μν φ_ν, ∇Xσ_μ = Σ_ν Dσ_μν ∇φ_ν, and Gσ the gradient
-// coefficient of the potential (G = 2 vσ ∇ρ unpolarised; Gα = 2 vσαα ∇ρα +
-// vσαβ ∇ρβ polarised). The derivatives of the Becke partition weights are
-// not included: the result is exact in the limit of a complete grid, and
-// on a finite grid it differs from the derivative of the quadrature by an
-// amount that shrinks with the grid (typically 1e-5 Eh/bohr on coarse
-// grids, well below on fine ones). Because of this the components need not
-// sum exactly to zero.
+// With all three the result is the exact derivative of the quadrature (so
+// it sums to zero over the atoms), apart from the points dropped for
+// negligible weight when the grid was built.
 
 // NuclearGradient returns ∂E_xc/∂R (3·natoms, hartree/bohr) at fixed
-// density matrices, without grid-weight derivatives. When Da and Db are the
+// density matrices, grid-weight derivatives included. When Da and Db are the
 // same matrix the density is restricted (each the half of the total).
 func (x *XC) NuclearGradient(Da, Db *mat.SymDense, natoms int) ([]float64, error) {
 	if Da == nil || Db == nil {
@@ -37,6 +41,9 @@ func (x *XC) NuclearGradient(Da, Db *mat.SymDense, natoms int) ([]float64, error
 	n := x.nbf
 	if Da.SymmetricDim() != n || Db.SymmetricDim() != n {
 		return nil, fmt.Errorf("dft: gradient: density matrices are %d×%d and %d×%d, the basis has %d functions", Da.SymmetricDim(), Da.SymmetricDim(), Db.SymmetricDim(), Db.SymmetricDim(), n)
+	}
+	if len(x.grid.pos) != natoms {
+		return nil, fmt.Errorf("dft: gradient: the grid belongs to %d atoms, not %d", len(x.grid.pos), natoms)
 	}
 	for i, s := range x.shells {
 		if s.atom < 0 || s.atom >= natoms {
@@ -114,6 +121,105 @@ type gradWork struct {
 	grho   [2][3][]float64
 	gcoef  [2][3][]float64
 	cart   []float64
+	dw     [][3]float64
+	bk     []float64
+}
+
+func growV(b [][3]float64, n int) [][3]float64 {
+	if cap(b) < n {
+		return make([][3]float64, n)
+	}
+	return b[:n]
+}
+
+// partitionDeriv returns the Becke weight w = P_G/Σ_B P_B of atom G at
+// point r (see beckeWeight) and fills dw[X] with dw/dR_X, the point moving
+// with atom G. scratch holds at least 5·nat + 3·nat² values.
+func (g *Grid) partitionDeriv(G int, r [3]float64, dw [][3]float64, scratch []float64) float64 {
+	nat := len(g.pos)
+	dist := scratch[:nat]
+	P := scratch[nat : 2*nat]
+	uv := scratch[2*nat : 5*nat]
+	dl := scratch[5*nat : 5*nat+3*nat*nat] // dl[(B*nat+X)*3+d] = ∂ln P_B/∂R_X,d
+	for k := range dl {
+		dl[k] = 0
+	}
+	unit := func(i int) [3]float64 { return [3]float64{uv[3*i], uv[3*i+1], uv[3*i+2]} }
+	for i, c := range g.pos {
+		dx, dy, dz := r[0]-c[0], r[1]-c[1], r[2]-c[2]
+		dist[i] = math.Sqrt(dx*dx + dy*dy + dz*dz)
+		uv[3*i], uv[3*i+1], uv[3*i+2] = 0, 0, 0
+		if dist[i] > 0 {
+			uv[3*i], uv[3*i+1], uv[3*i+2] = dx/dist[i], dy/dist[i], dz/dist[i]
+		}
+		P[i] = 1
+	}
+	addv := func(B, X int, f float64, v [3]float64) {
+		o := (B*nat + X) * 3
+		dl[o] += f * v[0]
+		dl[o+1] += f * v[1]
+		dl[o+2] += f * v[2]
+	}
+	for i := 0; i < nat; i++ {
+		for j := 0; j < i; j++ {
+			ir := g.invR[i*nat+j]
+			a := g.aij[i*nat+j]
+			mu := (dist[i] - dist[j]) * ir
+			nu := mu + a*(1-mu*mu)
+			f, df := nu, 1.0
+			for k := 0; k < 3; k++ {
+				df *= 1.5 * (1 - f*f)
+				f = 1.5*f - 0.5*f*f*f
+			}
+			s := 0.5 * (1 - f)
+			P[i] *= s
+			P[j] *= 1 - s
+			dsdmu := -0.5 * df * (1 - 2*a*mu)
+			var e, gi, gj, gr [3]float64
+			ui, uj := unit(i), unit(j)
+			for d := 0; d < 3; d++ {
+				e[d] = (g.pos[i][d] - g.pos[j][d]) * ir
+			}
+			for d := 0; d < 3; d++ {
+				gi[d] = (-ui[d] - mu*e[d]) * ir
+				gj[d] = (uj[d] + mu*e[d]) * ir
+				gr[d] = (ui[d] - uj[d]) * ir
+			}
+			if s > 0 {
+				t := dsdmu / s
+				addv(i, i, t, gi)
+				addv(i, j, t, gj)
+				addv(i, G, t, gr)
+			}
+			if 1-s > 0 {
+				t := -dsdmu / (1 - s)
+				addv(j, i, t, gi)
+				addv(j, j, t, gj)
+				addv(j, G, t, gr)
+			}
+		}
+	}
+	Z := 0.0
+	for _, v := range P {
+		Z += v
+	}
+	if Z == 0 {
+		for X := range dw {
+			dw[X] = [3]float64{}
+		}
+		return 0
+	}
+	w := P[G] / Z
+	for X := 0; X < nat; X++ {
+		for d := 0; d < 3; d++ {
+			dz := 0.0
+			for B := 0; B < nat; B++ {
+				dz += P[B] * dl[(B*nat+X)*3+d]
+			}
+			dw[X][d] = P[G]*dl[(G*nat+X)*3+d]/Z - w*dz/Z
+		}
+	}
+	return w
 }
 
 // hessIndex[d][e] is the position of ∂_d∂_e in the six second derivatives.
@@ -276,11 +382,11 @@ func (x *XC) gradBatch(b int, da, db []float64, w *gradWork, g []float64) {
 		}
 		w.xs[s] = growF(w.xs[s], m)
 		mulLocal(w.phi, w.dloc, np, nl, w.xs[s])
-		if gga {
-			for d := 0; d < 3; d++ {
+		for d := 0; d < 3; d++ {
+			w.grho[s][d] = growF(w.grho[s][d], np)
+			if gga {
 				w.ys[s][d] = growF(w.ys[s][d], m)
 				mulLocal(w.d1[d], w.dloc, np, nl, w.ys[s][d])
-				w.grho[s][d] = growF(w.grho[s][d], np)
 				w.gcoef[s][d] = growF(w.gcoef[s][d], np)
 			}
 		}
@@ -300,7 +406,7 @@ func (x *XC) gradBatch(b int, da, db []float64, w *gradWork, g []float64) {
 				r += v * ph[k]
 			}
 			w.rho[p*nspin+s] = r
-			if gga {
+			{
 				for d := 0; d < 3; d++ {
 					gd := w.d1[d][p*nl : (p+1)*nl]
 					t := 0.0
@@ -352,6 +458,55 @@ func (x *XC) gradBatch(b int, da, db []float64, w *gradWork, g []float64) {
 					ga, gb := w.grho[0][d][p], w.grho[1][d][p]
 					w.gcoef[0][d][p] = 2*saa*ga + sab*gb
 					w.gcoef[1][d][p] = 2*sbb*gb + sab*ga
+				}
+			}
+		}
+	}
+	// the point moves with its atom: W_p ∇_r e = W_p Σσ (vρσ ∇ρσ + ∇∇ρσ Gσ);
+	// and the partition weight changes with every atom
+	nat := len(g) / 3
+	if len(x.grid.pos) > 1 {
+		w.dw = growV(w.dw, nat)
+		w.bk = growF(w.bk, 5*nat+3*nat*nat)
+	}
+	for p := 0; p < np; p++ {
+		if w.e[p] == 0 && w.vrho[p*nspin] == 0 && (nspin == 1 || w.vrho[p*nspin+1] == 0) {
+			continue
+		}
+		parent := x.grid.Atom[bt.start+p]
+		var mv [3]float64
+		for s := 0; s < nspin; s++ {
+			vr := w.vrho[p*nspin+s]
+			for d := 0; d < 3; d++ {
+				mv[d] += vr * w.grho[s][d][p]
+			}
+			if gga {
+				xr := w.xs[s][p*nl : (p+1)*nl]
+				for d := 0; d < 3; d++ {
+					for e := 0; e < 3; e++ {
+						h := 0.0
+						d2 := w.d2[hessIndex[d][e]][p*nl : (p+1)*nl]
+						d1 := w.d1[d][p*nl : (p+1)*nl]
+						ye := w.ys[s][e][p*nl : (p+1)*nl]
+						for k, xv := range xr {
+							h += d2[k]*xv + d1[k]*ye[k]
+						}
+						mv[d] += 2 * h * w.gcoef[s][e][p]
+					}
+				}
+			}
+		}
+		for d := 0; d < 3; d++ {
+			g[3*parent+d] += W[p] * mv[d]
+		}
+		if len(x.grid.pos) > 1 && w.e[p] != 0 {
+			rel := x.grid.partitionDeriv(parent, [3]float64{X[p], Y[p], Z[p]}, w.dw, w.bk)
+			if rel > 0 {
+				f := W[p] * w.e[p] / rel
+				for a := 0; a < nat; a++ {
+					for d := 0; d < 3; d++ {
+						g[3*a+d] += f * w.dw[a][d]
+					}
 				}
 			}
 		}

@@ -45,6 +45,12 @@ type Grid struct {
 	Spec       GridSpec
 	X, Y, Z, W []float64
 	batches    []batch
+	// Atom[p] is the atom whose radial grid point p belongs to; pos, aij
+	// and invR are the atom positions and Becke partition parameters
+	// (for the derivatives of the weights).
+	Atom      []int
+	pos       [][3]float64
+	aij, invR []float64
 }
 
 type batch struct {
@@ -174,6 +180,7 @@ func NewGrid(mol *molecule.Molecule, spec GridSpec, threads int) (*Grid, error) 
 	}
 	np := offs[len(shells)]
 	X, Y, Z, W := make([]float64, np), make([]float64, np), make([]float64, np), make([]float64, np)
+	parent := make([]int, np)
 	// size-adjustment parameters a_ij (Becke 1988, appendix)
 	aij := make([]float64, nat*nat)
 	for i := 0; i < nat; i++ {
@@ -224,6 +231,7 @@ func NewGrid(mol *molecule.Molecule, spec GridSpec, threads int) (*Grid, error) 
 					y := c[1] + s.r*s.ang.y[k]
 					z := c[2] + s.r*s.ang.z[k]
 					X[p], Y[p], Z[p] = x, y, z
+					parent[p] = s.atom
 					w := s.w * s.ang.w[k]
 					if nat > 1 {
 						w *= beckeWeight(mol, s.atom, x, y, z, aij, invR, dist, P)
@@ -235,7 +243,10 @@ func NewGrid(mol *molecule.Molecule, spec GridSpec, threads int) (*Grid, error) 
 	}
 	wg.Wait()
 	// drop negligible points
-	g := &Grid{Spec: spec}
+	g := &Grid{Spec: spec, aij: aij, invR: invR}
+	for _, a := range mol.Atoms {
+		g.pos = append(g.pos, a.PosBohr)
+	}
 	idx := make([]int, 0, np)
 	for p := 0; p < np; p++ {
 		if W[p] >= weightFloor {
@@ -264,6 +275,7 @@ func NewGrid(mol *molecule.Molecule, spec GridSpec, threads int) (*Grid, error) 
 				g.Y = append(g.Y, Y[p])
 				g.Z = append(g.Z, Z[p])
 				g.W = append(g.W, W[p])
+				g.Atom = append(g.Atom, parent[p])
 				dx, dy, dz := X[p]-b.centre[0], Y[p]-b.centre[1], Z[p]-b.centre[2]
 				b.radius = math.Max(b.radius, math.Sqrt(dx*dx+dy*dy+dz*dz))
 			}
