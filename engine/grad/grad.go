@@ -23,10 +23,9 @@
 // order, so tight convergence is needed for accurate gradients.
 //
 // Kohn–Sham: the exchange–correlation term comes from the XC object used
-// in the SCF (Options.XC), evaluated with the grid moving rigidly with the
-// atoms but without derivatives of the partition weights (see
-// engine/dft); its error shrinks with the grid and is ~1e-5 Eh/bohr on
-// coarse grids.
+// in the SCF (Options.XC); engine/dft includes the derivatives of the grid
+// partition weights and of the moving grid points, so it is the exact
+// derivative of the quadrature on any grid.
 //
 // The gradient is not defined for runs with an external one-electron
 // perturbation (finite fields): its derivative is not included.
