@@ -99,8 +99,8 @@ func correlate(job *Job, mol *molecule.Molecule, mb *basis.Molecular, sr *scf.Re
 }
 
 // gradient returns the energy and analytic nuclear gradient at mol.
-// SCF levels (HF, DFT) only; the XC part of a DFT gradient leaves out the
-// derivatives of the grid partition weights (see engine/grad).
+// SCF levels (HF, DFT) only; a DFT gradient includes the grid-weight
+// derivatives (see engine/grad and engine/dft).
 func gradient(job *Job, mol *molecule.Molecule, set *basis.Set, o RunOptions) (float64, []float64, error) {
 	info := Methods[job.Method]
 	if info.Family != "hf" && info.Family != "dft" {
