@@ -1,12 +1,10 @@
 package main
 
 import (
-	"errors"
 	"flag"
 	"fmt"
 	"io"
 	"os"
-	"path/filepath"
 	"strings"
 	"time"
 
@@ -29,13 +27,13 @@ type filterFlags struct {
 
 func addFilterFlags(fs *flag.FlagSet) *filterFlags {
 	f := &filterFlags{}
-	fs.StringVar(&f.molecule, "molecule", "", "molecule name (case-insensitive)")
-	fs.StringVar(&f.formula, "formula", "", "Hill formula, e.g. H2O")
-	fs.StringVar(&f.method, "method", "", "method")
-	fs.StringVar(&f.basis, "basis", "", "basis set name")
-	fs.StringVar(&f.status, "status", "", "converged, not_converged or failed")
-	fs.Var(&f.tags, "tag", "KEY=VALUE (repeatable; all must match)")
-	fs.StringVar(&f.since, "since", "", "started at or after: 2006-01-02, an RFC 3339 time, or a span back from now (36h, 7d)")
+	fs.StringVar(&f.molecule, "molecule", "", "molecule `NAME` (case-insensitive)")
+	fs.StringVar(&f.formula, "formula", "", "Hill `FORMULA`, e.g. H2O")
+	fs.StringVar(&f.method, "method", "", "the `METHOD`")
+	fs.StringVar(&f.basis, "basis", "", "basis set `NAME`")
+	fs.StringVar(&f.status, "status", "", "the `STATUS`: converged, not_converged or failed")
+	fs.Var(&f.tags, "tag", "`KEY=VALUE` (repeatable; all must match)")
+	fs.StringVar(&f.since, "since", "", "start `TIME` at or after: 2006-01-02, an RFC 3339 time, or a span back from now (36h, 7d)")
 	return f
 }
 
@@ -101,7 +99,7 @@ func cmdList(args []string, stdout, stderr io.Writer) int {
 	t := &table{head: []string{"id", "started UTC", "molecule", "formula", "method", "basis", "status", "energy/hartree", "tags"},
 		right: []bool{false, false, false, false, false, false, false, true, false}}
 	for _, s := range sums {
-		t.add(s.ID[:12], utc(s.StartUTC), s.Molecule, s.Formula, s.Method, s.Basis+angularMark(s.Angular), s.Status, energyCell(s.Status, s.EnergyHartree), strings.Join(s.Tags, " "))
+		t.add(s.ID[:12], utc(s.StartUTC), s.Molecule, s.Formula, methodLabel(s.Method, s.Reference), s.Basis+angularMark(s.Angular), s.Status, energyCell(s.Status, s.EnergyHartree), strings.Join(s.Tags, " "))
 	}
 	t.write(stdout)
 	fmt.Fprintf(stdout, "%d record(s); ° marks Cartesian d/f functions\n", len(sums))
@@ -197,7 +195,7 @@ func cmdExport(args []string, stdout, stderr io.Writer) int {
 	fs := newFlags("export", stderr, "--out F.jsonl [filters]")
 	af := addArchiveFlags(fs)
 	ff := addFilterFlags(fs)
-	out := fs.String("out", "", "output file (JSON lines; - for stdout)")
+	out := fs.String("out", "", "output `FILE` (JSON lines; - for stdout)")
 	asJSON := fs.Bool("json", false, "print a JSON summary (needs --out FILE)")
 	pos, code, ok := parseFlags(fs, args)
 	if !ok {
@@ -228,20 +226,17 @@ func cmdExport(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintf(stderr, "moltrail export: %d record(s)\n", n)
 		return exitOK
 	}
-	tmp, err := os.CreateTemp(filepath.Dir(*out), ".moltrail-export-*")
+	tmp, err := createAtomic(*out)
 	if err != nil {
-		return fail(stderr, exitUsage, "export", fmt.Errorf("cannot write next to %s: %v", *out, err))
+		return fail(stderr, exitUsage, "export", fmt.Errorf("--out %s: %v", *out, err))
 	}
 	n, err := st.Export(tmp, f)
-	if cerr := tmp.Close(); err == nil {
-		err = cerr
-	}
-	if err == nil {
-		err = os.Rename(tmp.Name(), *out)
-	}
 	if err != nil {
-		os.Remove(tmp.Name())
-		return fail(stderr, exitFailed, "export", fmt.Errorf("%s: %v", *out, err))
+		tmp.Abort()
+		return fail(stderr, exitFailed, "export", err)
+	}
+	if err := tmp.Commit(); err != nil {
+		return fail(stderr, exitFailed, "export", fmt.Errorf("--out %s: %v", *out, err))
 	}
 	if *asJSON {
 		printJSON(stdout, map[string]any{"out": *out, "records": n})
@@ -265,7 +260,7 @@ func cmdImport(args []string, stdout, stderr io.Writer) int {
 	}
 	fh, err := os.Open(pos[0])
 	if err != nil {
-		return fail(stderr, exitUsage, "import", fmt.Errorf("cannot open %s: %v", pos[0], err))
+		return fail(stderr, exitUsage, "import", fmt.Errorf("cannot open %s: %v", pos[0], pathErr(err)))
 	}
 	defer fh.Close()
 	// Read and validate the whole file before opening the archive for writing.
@@ -310,7 +305,8 @@ func cmdNote(args []string, stdout, stderr io.Writer) int {
 	if !ok {
 		return code
 	}
-	if len(pos) < 2 {
+	text := strings.TrimSpace(strings.Join(pos[min(1, len(pos)):], " "))
+	if len(pos) < 2 || text == "" {
 		fmt.Fprintln(stderr, "moltrail note: give a record id and the note text")
 		return exitUsage
 	}
@@ -323,12 +319,9 @@ func cmdNote(args []string, stdout, stderr io.Writer) int {
 	if err != nil {
 		return fail(stderr, exitUsage, "note", err)
 	}
-	n, err := st.AddNote(id, strings.Join(pos[1:], " "), time.Now())
+	n, err := st.AddNote(id, text, time.Now())
 	if err != nil {
-		if errors.Is(err, archive.ErrNoArchive) {
-			return fail(stderr, exitUsage, "note", err)
-		}
-		return fail(stderr, exitFailed, "note", err)
+		return fail(stderr, archiveErrCode(err), "note", err)
 	}
 	if *asJSON {
 		printJSON(stdout, n)

@@ -8,6 +8,7 @@ import (
 	"moltrail/archive"
 	"moltrail/engine"
 	"moltrail/engine/basis"
+	"moltrail/engine/dft"
 	"moltrail/engine/molecule"
 )
 
@@ -23,17 +24,17 @@ func engineCompute(job *engine.Job, threads int, progress io.Writer) (*engine.Re
 func cmdRun(args []string, stdout, stderr io.Writer) int {
 	fs := newFlags("run", stderr, "[flags] MOLECULE.xyz")
 	af := addArchiveFlags(fs)
-	method := fs.String("method", "hf", "method: "+joinNames(engine.MethodNames()))
-	basisName := fs.String("basis", "cc-pvdz", "basis set name or alias (see `moltrail basis`), or a basis JSON file")
+	method := fs.String("method", "hf", "the `METHOD`: "+joinNames(engine.MethodNames()))
+	basisName := fs.String("basis", "cc-pvdz", "basis set `NAME` or alias (moltrail basis lists them), or a basis JSON file")
 	charge := fs.Int("charge", 0, "total charge")
 	mult := fs.Int("multiplicity", 0, "spin multiplicity (default: the lowest the electron count allows)")
-	task := fs.String("task", "energy", "energy or optimize")
+	task := fs.String("task", "energy", "the `TASK`: energy or optimize")
 	frozen := fs.Bool("frozen-core", false, "correlated methods: freeze the chemical core")
 	var tags multiFlag
-	fs.Var(&tags, "tag", "KEY=VALUE stored with the record (repeatable)")
+	fs.Var(&tags, "tag", "`KEY=VALUE` stored with the record (repeatable)")
 	force := fs.Bool("force", false, "compute again even if the archive holds this input at this code version")
 	asJSON := fs.Bool("json", false, "print the stored record as JSON")
-	name := fs.String("name", "", "molecule name (default: the XYZ comment line)")
+	name := fs.String("name", "", "molecule `NAME` (default: the XYZ comment line)")
 	cart := fs.Bool("cartesian", false, "Cartesian d, f, … functions")
 	sph := fs.Bool("spherical", false, "spherical-harmonic d, f, … functions")
 	threads := fs.Int("threads", 0, "worker threads (0 = all cores); never changes a number")
@@ -41,12 +42,12 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 	dTol := fs.Float64("density-tol", engine.DefaultSCF.DensityTol, "SCF: … and RMS density change < this …")
 	gTol := fs.Float64("gradient-tol", engine.DefaultSCF.GradientTol, "SCF: … and max |FDS−SDF| < this")
 	maxIter := fs.Int("max-iter", engine.DefaultSCF.MaxIter, "SCF: iteration limit")
-	guess := fs.String("guess", engine.DefaultSCF.Guess, "SCF start: sad or core")
+	guess := fs.String("guess", engine.DefaultSCF.Guess, "SCF start `GUESS`: sad or core")
 	diis := fs.Int("diis", engine.DefaultSCF.DIISSize, "SCF: DIIS subspace size (0 = off)")
 	schwarz := fs.Float64("schwarz", engine.DefaultSCF.SchwarzThreshold, "skip ERI shell quartets with Schwarz bound below this")
 	shift := fs.Float64("level-shift", engine.DefaultSCF.LevelShiftHartree, "SCF: virtual-orbital level shift (hartree)")
-	grid := fs.String("grid", "", "DFT grid level (default: the engine's)")
-	origin := fs.String("origin", "centre-of-mass", "multipole origin: centre-of-mass, centre-of-charge or coordinate-origin")
+	grid := fs.String("grid", "", "DFT grid `LEVEL`: "+joinNames(dft.LevelNames())+" (default: "+dft.DefaultLevel+")")
+	origin := fs.String("origin", "centre-of-mass", "multipole `ORIGIN`: centre-of-mass, centre-of-charge or coordinate-origin")
 	pos, code, ok := parseFlags(fs, args)
 	if !ok {
 		return code
@@ -63,7 +64,10 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 	if err != nil {
 		return fail(stderr, exitUsage, "run", err)
 	}
-	m, err := molecule.ReadXYZFile(pos[0])
+	if *threads < 0 {
+		return fail(stderr, exitUsage, "run", fmt.Errorf("--threads %d: give 0 (all cores) or more", *threads))
+	}
+	m, err := readXYZ(pos[0])
 	if err != nil {
 		return fail(stderr, exitUsage, "run", err)
 	}
@@ -89,7 +93,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 	out, err := archive.RunAndStore(af.path(), archive.RunRequest{Job: job, Tags: tagMap, Force: *force,
 		Threads: *threads, Wait: af.waitOrNone(), Log: stderr}, engineCompute)
 	if err != nil {
-		return fail(stderr, exitFailed, "run", err)
+		return fail(stderr, archiveErrCode(err), "run", err)
 	}
 	rec := out.Record
 	switch {
@@ -146,4 +150,16 @@ func joinNames(n []string) string {
 	return s
 }
 
-var _ = os.Stdout
+// readXYZ reads a molecule file; the error names the file (and, from the
+// parser, the line).
+func readXYZ(path string) (*molecule.Molecule, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return nil, fmt.Errorf("molecule file %s: %v", path, pathErr(err))
+	}
+	defer f.Close()
+	if fi, err := f.Stat(); err == nil && fi.IsDir() {
+		return nil, fmt.Errorf("molecule file %s is a directory", path)
+	}
+	return molecule.ParseXYZ(f, path)
+}

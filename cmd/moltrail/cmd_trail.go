@@ -149,7 +149,7 @@ func cmdTrace(args []string, stdout, stderr io.Writer) int {
 	fs := newFlags("trace", stderr, "VALUE [--unit U] [filters] [--json]")
 	af := addArchiveFlags(fs)
 	ff := addFilterFlags(fs)
-	unit := fs.String("unit", "", "unit of the figure: "+archive.UnitNames()+" (default: each quantity in its stored unit)")
+	unit := fs.String("unit", "", "`UNIT` of the figure: "+archive.UnitNames()+" (default: each quantity in its stored unit)")
 	asJSON := fs.Bool("json", false, "print the matches as JSON")
 	pos, code, ok := parseFlags(fs, args)
 	if !ok {
@@ -191,18 +191,14 @@ func cmdTrace(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintln(stdout, "no stored quantity prints as this figure")
 		return exitOK
 	}
-	t := &table{head: []string{"record", "molecule", "quantity", "value", "unit", "method/basis", "scf ΔE tol", "revision", "started UTC", ""}, right: []bool{false, false, false, true}}
+	t := &table{head: []string{"record", "molecule", "quantity", "value", "unit", "method/basis", "scf ΔE tol", "code", "started UTC", ""}, right: []bool{false, false, false, true}}
 	for _, m := range ms {
 		note := ""
 		if m.MagnitudeOnly {
 			note = "magnitude only (sign differs)"
 		}
-		rev := m.Revision
-		if len(rev) > 10 {
-			rev = rev[:10]
-		}
 		t.add(m.RecordID[:12], m.Molecule, m.Quantity, fmt.Sprintf("%.8g", m.Value), m.Unit, m.Method+"/"+m.Basis+angularMark(m.Angular),
-			fmt.Sprintf("%.0e", m.EnergyTol), orDash(rev)+" "+m.Version, utc(m.StartUTC), note)
+			fmt.Sprintf("%.0e", m.EnergyTol), codeLabel(m.Version, m.Revision), utc(m.StartUTC), note)
 	}
 	t.write(stdout)
 	fmt.Fprintf(stdout, "%d match(es). A match says only that the figure is consistent with a stored value; check the settings against the source of the figure.\n", len(ms))

@@ -7,44 +7,199 @@ import (
 	"fmt"
 	"io"
 	"os"
+	"regexp"
+	"strconv"
 	"strings"
 	"time"
 
 	"moltrail/archive"
 )
 
-// newFlags makes a flag set that reports to stderr and never exits.
+// stream is the stderr that dispatch hands to a command: it writes to the
+// real stderr and remembers stdout, where help that was asked for goes.
+type stream struct {
+	io.Writer
+	out io.Writer
+}
+
+// helpWriter is where a command's --help goes: stdout when the command was
+// started through dispatch, else stderr.
+func helpWriter(stderr io.Writer) io.Writer {
+	if s, ok := stderr.(*stream); ok {
+		return s.out
+	}
+	return stderr
+}
+
+// newFlags makes a flag set that never exits and never prints on its own:
+// parseFlags reports a bad flag in one sentence, and --help prints the
+// synopsis and flags (writeFlagHelp) on stdout.
 func newFlags(name string, stderr io.Writer, synopsis string) *flag.FlagSet {
 	fs := flag.NewFlagSet(name, flag.ContinueOnError)
 	fs.SetOutput(stderr)
 	fs.Usage = func() {
-		fmt.Fprintf(stderr, "usage: moltrail %s %s\n", name, synopsis)
-		fs.PrintDefaults()
+		w := helpWriter(stderr)
+		if c, ok := commands[name]; ok {
+			fmt.Fprintf(w, "moltrail %s — %s\n\n", name, c.Summary)
+		}
+		fmt.Fprintf(w, "usage: moltrail %s %s\n\n", name, synopsis)
+		writeFlagHelp(w, fs)
 	}
 	return fs
 }
 
-// parseFlags parses flags that may stand before, between or after the
-// positional arguments, and returns the positional arguments. ok is false
-// after --help (code exitOK) or a bad flag (code exitUsage).
-func parseFlags(fs *flag.FlagSet, args []string) (pos []string, code int, ok bool) {
-	for {
-		if err := fs.Parse(args); err != nil {
-			if errors.Is(err, flag.ErrHelp) {
-				return nil, exitOK, false
+// writeFlagHelp lists a command's flags: --name VALUE, what it does, and
+// its default when that is not empty or zero. A word in back quotes in the
+// usage text names the value (as with the flag package); otherwise the
+// value is named after its type.
+func writeFlagHelp(w io.Writer, fs *flag.FlagSet) {
+	type row struct{ left, text string }
+	var rows []row
+	width := 0
+	fs.VisitAll(func(f *flag.Flag) {
+		name, text := flag.UnquoteUsage(f)
+		if pre, rest, ok := strings.Cut(f.Usage, "`"); ok {
+			// The back-quoted placeholder reads as a word in the text.
+			if word, post, ok := strings.Cut(rest, "`"); ok && strings.Trim(word, "ABCDEFGHIJKLMNOPQRSTUVWXYZ") == "" {
+				text = pre + strings.ToLower(word) + post
 			}
-			return nil, exitUsage, false
 		}
-		rest := fs.Args()
-		if len(rest) == 0 {
-			return pos, 0, true
+		left := "--" + f.Name
+		if !isBoolFlag(f) {
+			left += " " + valueName(name)
 		}
-		if rest[0] == "--" {
-			return append(pos, rest[1:]...), 0, true
+		switch f.DefValue {
+		case "", "0", "false", "0s", "[]":
+		default:
+			text += " (default " + f.DefValue + ")"
 		}
-		pos = append(pos, rest[0])
-		args = rest[1:]
+		if n := runeLen(left); n > width && n <= 24 {
+			width = n
+		}
+		rows = append(rows, row{left, text})
+	})
+	for _, r := range rows {
+		if runeLen(r.left) > width {
+			fmt.Fprintf(w, "  %s\n  %s  %s\n", r.left, strings.Repeat(" ", width), r.text)
+			continue
+		}
+		fmt.Fprintf(w, "  %s%s  %s\n", r.left, strings.Repeat(" ", width-runeLen(r.left)), r.text)
 	}
+}
+
+// valueName turns the flag package's type names into value placeholders.
+func valueName(n string) string {
+	switch n {
+	case "string":
+		return "TEXT"
+	case "int", "uint":
+		return "N"
+	case "float":
+		return "X"
+	case "duration":
+		return "TIME"
+	case "value":
+		return "VALUE"
+	}
+	return n
+}
+
+func isBoolFlag(f *flag.Flag) bool {
+	b, ok := f.Value.(interface{ IsBoolFlag() bool })
+	return ok && b.IsBoolFlag()
+}
+
+// parseFlags parses flags that may stand before, between or after the
+// positional arguments, and returns the positional arguments. A negative
+// number (trace -76.0268) is an argument, not a flag; "--" ends the flags.
+// ok is false after --help (code exitOK; the help is printed) or a bad
+// flag (code exitUsage; one sentence on stderr).
+func parseFlags(fs *flag.FlagSet, args []string) (pos []string, code int, ok bool) {
+	var flags []string
+	for i := 0; i < len(args); i++ {
+		a := args[i]
+		if a == "--" {
+			pos = append(pos, args[i+1:]...)
+			break
+		}
+		if len(a) < 2 || a[0] != '-' || isNumber(a) {
+			pos = append(pos, a)
+			continue
+		}
+		flags = append(flags, a)
+		name, _, hasValue := strings.Cut(strings.TrimLeft(a, "-"), "=")
+		if f := fs.Lookup(name); f != nil && !hasValue && !isBoolFlag(f) && i+1 < len(args) {
+			i++
+			flags = append(flags, args[i])
+		}
+	}
+	// The flag package prints its own error and calls Usage on any
+	// error; both are silenced while it parses.
+	usage, stderr := fs.Usage, fs.Output()
+	fs.Usage = func() {}
+	fs.SetOutput(io.Discard)
+	err := fs.Parse(flags)
+	fs.Usage = usage
+	fs.SetOutput(stderr)
+	switch {
+	case errors.Is(err, flag.ErrHelp):
+		usage()
+		return nil, exitOK, false
+	case err != nil:
+		fmt.Fprintf(stderr, "moltrail %s: %s (`moltrail help %s` lists the flags)\n", fs.Name(), flagError(fs, err), fs.Name())
+		return nil, exitUsage, false
+	}
+	return append(pos, fs.Args()...), 0, true
+}
+
+// isNumber reports whether a is a number, such as a negative figure given
+// to trace.
+func isNumber(a string) bool {
+	_, err := strconv.ParseFloat(a, 64)
+	return err == nil && len(a) > 1 && (a[1] == '.' || (a[1] >= '0' && a[1] <= '9'))
+}
+
+var (
+	reUndefined = regexp.MustCompile(`^flag provided but not defined: -+(.*)$`)
+	reBadValue  = regexp.MustCompile(`^invalid (?:boolean )?value "(.*)" for (?:flag )?-+([^:]+): (.*)$`)
+	reNoValue   = regexp.MustCompile(`^flag needs an argument: -+(.*)$`)
+	reSyntax    = regexp.MustCompile(`^bad flag syntax: (.*)$`)
+)
+
+// flagError words a flag-package error in moltrail's terms.
+func flagError(fs *flag.FlagSet, err error) string {
+	msg := err.Error()
+	if m := reUndefined.FindStringSubmatch(msg); m != nil {
+		return fmt.Sprintf("there is no flag --%s", m[1])
+	}
+	if m := reNoValue.FindStringSubmatch(msg); m != nil {
+		return fmt.Sprintf("--%s needs a value", m[1])
+	}
+	if m := reSyntax.FindStringSubmatch(msg); m != nil {
+		return fmt.Sprintf("cannot read %q as a flag", m[1])
+	}
+	if m := reBadValue.FindStringSubmatch(msg); m != nil {
+		want := m[3]
+		if f := fs.Lookup(m[2]); f != nil {
+			switch {
+			case isBoolFlag(f):
+				want = "it takes no value (or =true, =false)"
+			default:
+				switch name, _ := flag.UnquoteUsage(f); name {
+				case "int":
+					want = "a whole number is needed"
+				case "uint":
+					want = "a whole number, 0 or more, is needed"
+				case "float":
+					want = "a number is needed"
+				case "duration":
+					want = "a duration such as 500ms, 30s or 2m is needed"
+				}
+			}
+		}
+		return fmt.Sprintf("--%s %q: %s", m[2], m[1], want)
+	}
+	return msg
 }
 
 // archiveFlags are the flags every archive-touching command takes.
@@ -55,7 +210,7 @@ type archiveFlags struct {
 
 func addArchiveFlags(fs *flag.FlagSet) *archiveFlags {
 	a := &archiveFlags{}
-	fs.StringVar(&a.dir, "archive", "", "archive directory (default $MOLTRAIL_ARCHIVE, else ./moltrail-archive)")
+	fs.StringVar(&a.dir, "archive", "", "archive `DIRECTORY` (default $MOLTRAIL_ARCHIVE, else ./moltrail-archive)")
 	fs.DurationVar(&a.wait, "wait", archive.DefaultWait, "how long to wait while another process holds the archive")
 	return a
 }
@@ -85,10 +240,17 @@ func (a *archiveFlags) open(readOnly bool, stderr io.Writer) (*archive.Store, in
 	if err == nil {
 		return s, 0, nil
 	}
-	if errors.Is(err, archive.ErrNoArchive) {
-		return nil, exitUsage, err
+	return nil, archiveErrCode(err), err
+}
+
+// archiveErrCode is the exit status for an error from the archive: a path
+// that holds no archive or cannot hold one is bad input; anything else
+// (in use, damaged, a failed write) is work that failed.
+func archiveErrCode(err error) int {
+	if errors.Is(err, archive.ErrNoArchive) || errors.Is(err, archive.ErrNotArchive) {
+		return exitUsage
 	}
-	return nil, exitFailed, err
+	return exitFailed
 }
 
 // printJSON writes exactly one JSON value and a newline.
@@ -184,8 +346,26 @@ func (t *table) write(w io.Writer) {
 
 func runeLen(s string) int { return len([]rune(s)) }
 
+func init() {
+	register(Command{Name: "version", Summary: "this build: program version, revision, Go version, formats", Run: cmdVersion})
+}
+
 func cmdVersion(args []string, stdout, stderr io.Writer) int {
+	fs := newFlags("version", stderr, "[--json]")
+	asJSON := fs.Bool("json", false, "print the build description as JSON")
+	pos, code, ok := parseFlags(fs, args)
+	if !ok {
+		return code
+	}
+	if len(pos) > 0 {
+		fmt.Fprintf(stderr, "moltrail version: unexpected argument %q\n", pos[0])
+		return exitUsage
+	}
 	c := archive.CurrentCode()
+	if *asJSON {
+		printJSON(stdout, map[string]any{"code": c, "record_format": archive.RecordFormat})
+		return exitOK
+	}
 	rev := c.Revision
 	if rev == "" {
 		rev = "unknown revision"

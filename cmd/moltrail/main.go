@@ -67,27 +67,32 @@ func dispatch(args []string, stdout, stderr io.Writer) (code int) {
 			code = exitFailed
 		}
 	}()
-	if len(args) == 0 || args[0] == "help" || args[0] == "-h" || args[0] == "--help" {
-		if len(args) > 1 {
-			if c, ok := commands[args[1]]; ok {
-				return c.Run([]string{"--help"}, stdout, stderr)
-			}
+	if len(args) == 0 {
+		usage(stderr)
+		return exitUsage
+	}
+	errs := &stream{Writer: stderr, out: stdout}
+	switch args[0] {
+	case "help", "-h", "-help", "--help":
+		if len(args) == 1 {
+			usage(stdout)
+			return exitOK
 		}
-		usage(stdout)
-		if len(args) == 0 {
+		c, ok := commands[args[1]]
+		if !ok || len(args) > 2 {
+			fmt.Fprintf(stderr, "moltrail help: %q is not a command; `moltrail help` lists them\n", strings.Join(args[1:], " "))
 			return exitUsage
 		}
-		return exitOK
-	}
-	if args[0] == "version" || args[0] == "--version" {
-		return cmdVersion(args[1:], stdout, stderr)
+		return c.Run([]string{"--help"}, stdout, errs)
+	case "--version":
+		return cmdVersion(args[1:], stdout, errs)
 	}
 	c, ok := commands[args[0]]
 	if !ok {
 		fmt.Fprintf(stderr, "moltrail: %q is not a command; `moltrail help` lists them\n", args[0])
 		return exitUsage
 	}
-	return c.Run(args[1:], stdout, stderr)
+	return c.Run(args[1:], stdout, errs)
 }
 
 func usage(w io.Writer) {

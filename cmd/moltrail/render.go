@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"strconv"
 	"strings"
 
 	"moltrail/archive"
@@ -11,35 +12,71 @@ import (
 )
 
 func level(r *archive.Record) string {
-	s := r.Input.Method
-	if r.Input.Reference != "" && r.Input.Reference != r.Input.Method {
-		s += "(" + r.Input.Reference + ")"
+	return methodLabel(r.Input.Method, r.Input.Reference) + " / " + r.Input.Basis.Name + " " + string(r.Input.Basis.Angular)
+}
+
+// methodLabel is the method with its SCF reference when that says more
+// (hf(uhf) for an open shell, mp2(rhf)).
+func methodLabel(method, reference string) string {
+	if reference != "" && reference != method {
+		return method + "(" + reference + ")"
 	}
-	return s + " / " + r.Input.Basis.Name + " " + string(r.Input.Basis.Angular)
+	return method
+}
+
+// codeLabel is a program version with the start of its VCS revision.
+func codeLabel(version, revision string) string {
+	if len(revision) > 10 {
+		revision = revision[:10]
+	}
+	if revision == "" {
+		return version
+	}
+	return version + " " + revision
 }
 
 func energyCell(status string, e float64) string {
 	if status == engine.StatusFailed {
 		return "—"
 	}
-	return fmt.Sprintf("%.10f", e)
+	return fixed(e, 10)
 }
 
+// fixed formats v with prec decimals; a value that rounds to zero prints
+// without a minus sign (no "-0.000000" for a component that is zero by
+// symmetry).
+func fixed(v float64, prec int) string {
+	s := strconv.FormatFloat(v, 'f', prec, 64)
+	if s[0] == '-' && strings.Trim(s[1:], "0.") == "" {
+		return s[1:]
+	}
+	return s
+}
+
+// vec is a dipole-like vector with its magnitude.
 func vec(v *[3]float64, unit string) string {
 	if v == nil {
 		return "—"
 	}
 	n := math.Sqrt(v[0]*v[0] + v[1]*v[1] + v[2]*v[2])
-	return fmt.Sprintf("(%.6f, %.6f, %.6f) %s   |μ| %.6f %s", v[0], v[1], v[2], unit, n, unit)
+	return fmt.Sprintf("(%s, %s, %s) %s   |μ| %s %s", fixed(v[0], 6), fixed(v[1], 6), fixed(v[2], 6), unit, fixed(n, 6), unit)
+}
+
+// signed is an integer with its sign, and 0 without one.
+func signed(n int) string {
+	if n == 0 {
+		return "0"
+	}
+	return fmt.Sprintf("%+d", n)
 }
 
 // writeRunSummary is the short human report after a run.
 func writeRunSummary(w io.Writer, r *archive.Record) {
 	fmt.Fprintf(w, "record   %s   %s\n", r.ID, r.Status)
-	fmt.Fprintf(w, "molecule %s  %s  charge %d  multiplicity %d\n", r.Input.Molecule.Name, r.Formula(), r.Input.Molecule.Charge, r.Input.Molecule.Multiplicity)
+	fmt.Fprintf(w, "molecule %s  %s  charge %s  multiplicity %d\n", r.Input.Molecule.Name, r.Formula(), signed(r.Input.Molecule.Charge), r.Input.Molecule.Multiplicity)
 	fmt.Fprintf(w, "level    %s  task %s\n", level(r), r.Input.Task)
 	if r.Status != engine.StatusFailed {
-		fmt.Fprintf(w, "energy   %.10f hartree\n", r.Results.EnergyHartree)
+		fmt.Fprintf(w, "energy   %s hartree\n", fixed(r.Results.EnergyHartree, 10))
 		if r.Results.DipoleDebye != nil {
 			fmt.Fprintf(w, "dipole   %s\n", vec(r.Results.DipoleDebye, "D"))
 		}
@@ -60,7 +97,7 @@ func writeRecord(w io.Writer, r *archive.Record, notes []archive.Note) {
 
 	in := r.Input
 	sec("input")
-	kv("molecule", "%s  (%s, charge %+d, multiplicity %d, %d atoms)", in.Molecule.Name, r.Formula(), in.Molecule.Charge, in.Molecule.Multiplicity, len(in.Molecule.Atoms))
+	kv("molecule", "%s  (%s, charge %s, multiplicity %d, %d atoms)", in.Molecule.Name, r.Formula(), signed(in.Molecule.Charge), in.Molecule.Multiplicity, len(in.Molecule.Atoms))
 	kv("method", "%s  reference %s", in.Method, in.Reference)
 	if in.Functional != "" {
 		kv("functional", "%s", in.Functional)
@@ -83,7 +120,7 @@ func writeRecord(w io.Writer, r *archive.Record, notes []archive.Note) {
 	}
 	fmt.Fprintln(w, "  atoms (bohr)")
 	for _, a := range in.Molecule.Atoms {
-		fmt.Fprintf(w, "    %-2s %15.10f %15.10f %15.10f\n", a.Symbol, a.Bohr[0], a.Bohr[1], a.Bohr[2])
+		fmt.Fprintf(w, "    %-2s %15s %15s %15s\n", a.Symbol, fixed(a.Bohr[0], 10), fixed(a.Bohr[1], 10), fixed(a.Bohr[2], 10))
 	}
 
 	res := r.Results
@@ -92,21 +129,21 @@ func writeRecord(w io.Writer, r *archive.Record, notes []archive.Note) {
 		kv("error", "%s", res.Error)
 	}
 	if r.Status != engine.StatusFailed {
-		kv("energy", "%.10f hartree", res.EnergyHartree)
-		kv("scf energy", "%.10f hartree", res.SCFEnergyHartree)
+		kv("energy", "%s hartree", fixed(res.EnergyHartree, 10))
+		kv("scf energy", "%s hartree", fixed(res.SCFEnergyHartree, 10))
 		if res.CorrelationEnergyHartree != nil {
-			kv("correlation energy", "%.10f hartree", *res.CorrelationEnergyHartree)
+			kv("correlation energy", "%s hartree", fixed(*res.CorrelationEnergyHartree, 10))
 		}
-		kv("nuclear repulsion", "%.10f hartree", res.NuclearRepulsionHartree)
+		kv("nuclear repulsion", "%s hartree", fixed(res.NuclearRepulsionHartree, 10))
 		kv("dipole", "%s", vec(res.DipoleDebye, "D"))
 		if res.SCFDipoleDebye != nil && res.DipoleDebye != nil && *res.SCFDipoleDebye != *res.DipoleDebye {
 			kv("scf dipole", "%s", vec(res.SCFDipoleDebye, "D"))
 		}
 		if q := res.QuadrupoleBuckingham; q != nil {
-			kv("quadrupole (traceless)", "xx %.6f yy %.6f zz %.6f xy %.6f xz %.6f yz %.6f D·Å", q.XX, q.YY, q.ZZ, q.XY, q.XZ, q.YZ)
+			kv("quadrupole (traceless)", "xx %s yy %s zz %s xy %s xz %s yz %s D·Å", fixed(q.XX, 6), fixed(q.YY, 6), fixed(q.ZZ, 6), fixed(q.XY, 6), fixed(q.XZ, 6), fixed(q.YZ, 6))
 		}
 		o := res.MultipoleOriginBohr
-		kv("multipole origin", "(%.6f, %.6f, %.6f) bohr — dipoles of charged molecules and quadrupoles depend on it", o[0], o[1], o[2])
+		kv("multipole origin", "(%s, %s, %s) bohr — dipoles of charged molecules and quadrupoles depend on it", fixed(o[0], 6), fixed(o[1], 6), fixed(o[2], 6))
 		if res.S2 != nil {
 			kv("<S²>", "%.6f", *res.S2)
 		}
@@ -118,7 +155,7 @@ func writeRecord(w io.Writer, r *archive.Record, notes []archive.Note) {
 	}
 	fmt.Fprintln(w, "  geometry (Å)")
 	for _, a := range res.GeometryAngstrom {
-		fmt.Fprintf(w, "    %-2s %15.10f %15.10f %15.10f\n", a.Symbol, a.XYZ[0], a.XYZ[1], a.XYZ[2])
+		fmt.Fprintf(w, "    %-2s %15s %15s %15s\n", a.Symbol, fixed(a.XYZ[0], 10), fixed(a.XYZ[1], 10), fixed(a.XYZ[2], 10))
 	}
 	for _, n := range res.Notes {
 		fmt.Fprintf(w, "  note: %s\n", n)
@@ -140,8 +177,8 @@ func writeRecord(w io.Writer, r *archive.Record, notes []archive.Note) {
 	kv("job encoding", "%s", c.CanonicalVersion)
 
 	sec("run")
-	kv("started", "%s UTC", utc(r.Run.StartUTC))
-	kv("ended", "%s UTC", utc(r.Run.EndUTC))
+	kv("started UTC", "%s", utc(r.Run.StartUTC))
+	kv("ended UTC", "%s", utc(r.Run.EndUTC))
 	kv("wall time", "%.3f s on %s, %d threads, peak memory %.1f MiB", r.Run.WallSeconds, r.Run.Host, r.Run.Threads, r.Run.PeakMemoryMB)
 	if len(r.Lineage) > 0 || len(r.Tags) > 0 {
 		sec("lineage and tags")

@@ -1,0 +1,157 @@
+package main
+
+import (
+	"flag"
+	"fmt"
+	"io"
+	"strings"
+	"time"
+
+	"moltrail/archive"
+	"moltrail/compare"
+)
+
+// comparisonFlags are the flags that choose a reference set, the archived
+// records held against it and the bootstrap: compare and report take the
+// same ones, so the same selection gives the same table in both.
+type comparisonFlags struct {
+	filter  *filterFlags
+	refs    *string
+	until   *string
+	samples *int
+	seed    *uint64
+}
+
+// comparisonFlagNames are the flags of addComparisonFlags (with the
+// filters); report writes the ones given into the document's provenance.
+var comparisonFlagNames = map[string]bool{
+	"refs": true, "molecule": true, "formula": true, "method": true, "basis": true, "status": true,
+	"tag": true, "since": true, "until": true, "bootstrap": true, "seed": true,
+}
+
+func addComparisonFlags(fs *flag.FlagSet) *comparisonFlags {
+	return &comparisonFlags{
+		filter:  addFilterFlags(fs),
+		refs:    fs.String("refs", "", "reference `SET`: builtin (all built-in sets), a built-in set name ("+strings.Join(compare.BuiltinNames(), ", ")+") or a reference-set JSON file"),
+		until:   fs.String("until", "", "start `TIME` before: 2006-01-02 or an RFC 3339 time"),
+		samples: fs.Int("bootstrap", compare.DefaultOptions.BootstrapSamples, "bootstrap resamples for confidence intervals (100–1000000)"),
+		seed:    fs.Uint64("seed", compare.DefaultOptions.Seed, "seed of the bootstrap random stream (fixed: same input, same output)"),
+	}
+}
+
+// comparison is a checked selection: the reference set, which records to
+// consider and how to compare them.
+type comparison struct {
+	set     *compare.RefSet
+	filter  archive.Filter
+	before  time.Time // zero: no upper bound
+	options compare.Options
+}
+
+// resolve checks the flags and loads the reference set; every error is
+// bad usage or input (exitUsage).
+func (c *comparisonFlags) resolve() (*comparison, error) {
+	if *c.refs == "" {
+		return nil, fmt.Errorf("--refs is required (builtin, one of %s, or a file)", strings.Join(compare.BuiltinNames(), ", "))
+	}
+	if *c.samples < 100 || *c.samples > 1000000 {
+		return nil, fmt.Errorf("--bootstrap %d is outside 100–1000000", *c.samples)
+	}
+	f, err := c.filter.filter()
+	if err != nil {
+		return nil, err
+	}
+	out := &comparison{filter: f, options: compare.Options{BootstrapSamples: *c.samples, Seed: *c.seed}}
+	if *c.until != "" {
+		t, err := archive.ParseSince(*c.until, time.Now())
+		if err != nil {
+			return nil, fmt.Errorf("--until %q is not a date (2006-01-02), an RFC 3339 time or a duration back from now (36h, 7d)", *c.until)
+		}
+		out.before = t
+	}
+	if out.set, err = compare.LoadRefSet(*c.refs); err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
+// selectRecordsForComparison returns the stored records that a comparison
+// with set considers: those the filter admits, started before `before`
+// (unless it is zero), and named like a molecule of the set (a name or an
+// alias). It decides nothing more: compare.Compare picks the newest
+// converged record per molecule and level among them and lists the rest
+// as left out. Records come in the archive's listing order.
+func selectRecordsForComparison(st *archive.Store, set *compare.RefSet, f archive.Filter, before time.Time) ([]*archive.Record, error) {
+	sums, err := st.List(f)
+	if err != nil {
+		return nil, err
+	}
+	var recs []*archive.Record
+	for _, s := range sums {
+		if !set.Names(s.Molecule) {
+			continue
+		}
+		if !before.IsZero() {
+			t, err := time.Parse(time.RFC3339Nano, s.StartUTC)
+			if err == nil && !t.Before(before) {
+				continue
+			}
+		}
+		r, _, err := st.Get(s.ID)
+		if err != nil {
+			return nil, err
+		}
+		recs = append(recs, r)
+	}
+	return recs, nil
+}
+
+// compareArchive opens the archive read-only, selects the records and
+// compares them with the set: the one way from a selection to a
+// compare.Table. code is the exit status to use when err is not nil.
+func compareArchive(af *archiveFlags, c *comparison, stderr io.Writer) (tab *compare.Table, recs []*archive.Record, code int, err error) {
+	st, code, err := af.open(true, stderr)
+	if err != nil {
+		return nil, nil, code, err
+	}
+	defer st.Close()
+	if recs, err = selectRecordsForComparison(st, c.set, c.filter, c.before); err != nil {
+		return nil, nil, exitFailed, err
+	}
+	if tab, err = compare.Compare(c.set, recs, c.options); err != nil {
+		return nil, nil, exitUsage, err
+	}
+	return tab, recs, 0, nil
+}
+
+// recordsUsed returns, once each and in the order of recs, the records a
+// comparison table used (picked or giving a deviation): the records a
+// report over that table covers.
+func recordsUsed(tab *compare.Table, recs []*archive.Record) []archive.Record {
+	used := map[string]bool{}
+	for _, p := range tab.Picked {
+		used[p.RecordID] = true
+	}
+	for _, d := range tab.Deviations {
+		used[d.RecordID] = true
+	}
+	var out []archive.Record
+	for _, r := range recs {
+		if used[r.ID] {
+			out = append(out, *r)
+			delete(used, r.ID)
+		}
+	}
+	return out
+}
+
+// flaggedDeviations counts the deviations that carry at least one caution.
+func flaggedDeviations(tab *compare.Table) int {
+	n := 0
+	for _, d := range tab.Deviations {
+		if len(d.Cautions) > 0 {
+			n++
+		}
+	}
+	return n
+}
