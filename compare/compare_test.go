@@ -146,8 +146,13 @@ func TestRefSetErrorsNameTheEntry(t *testing.T) {
 	}
 	// Broken JSON names a line.
 	_, err := ParseRefSet([]byte("{\n\"format\": \"moltrail-refset/1\",\n\"name\": 3}"), "broken.json")
-	if err == nil || !strings.Contains(err.Error(), "line 3") {
-		t.Errorf("type error should name line 3, got %v", err)
+	if err == nil || !strings.Contains(err.Error(), "line 3") || !strings.Contains(err.Error(), `"name" must be a JSON string, not a JSON number`) {
+		t.Errorf("type error should name line 3 and the key, got %v", err)
+	}
+	// A truncated file says so.
+	whole := strings.Replace(minimalSet, "%s", good, 1)
+	if _, err := ParseRefSet([]byte(whole[:len(whole)/2]), "cut.json"); err == nil || !strings.Contains(err.Error(), "cut.json: the file ends in the middle") {
+		t.Errorf("truncated set: got %v", err)
 	}
 }
 

@@ -6,10 +6,13 @@ import (
 	"embed"
 	"encoding/hex"
 	"encoding/json"
+	"errors"
 	"fmt"
+	"io"
 	"math"
 	"os"
 	"path"
+	"reflect"
 	"sort"
 	"strings"
 	"sync"
@@ -263,7 +266,8 @@ func ParseRefSet(b []byte, origin string) (*RefSet, error) {
 	return &s, nil
 }
 
-// jsonErr adds a line number to a JSON decoding error where it can.
+// jsonErr words a JSON decoding error with the line where it can: the
+// field of a value of the wrong type, a syntax error, a truncated file.
 func jsonErr(b []byte, err error) error {
 	var off int64 = -1
 	switch e := err.(type) {
@@ -271,12 +275,35 @@ func jsonErr(b []byte, err error) error {
 		off = e.Offset
 	case *json.UnmarshalTypeError:
 		off = e.Offset
+		if e.Field != "" {
+			err = fmt.Errorf("%q must be a JSON %s, not a JSON %s", e.Field, jsonType(e.Type.Kind()), e.Value)
+		}
+	}
+	if errors.Is(err, io.ErrUnexpectedEOF) || errors.Is(err, io.EOF) {
+		return fmt.Errorf("the file ends in the middle of its JSON (truncated?)")
 	}
 	if off < 0 || off > int64(len(b)) {
 		return err
 	}
 	line := 1 + bytes.Count(b[:off], []byte("\n"))
-	return fmt.Errorf("line %d: %v", line, err)
+	return fmt.Errorf("line %d: %v", line, strings.TrimPrefix(err.Error(), "json: "))
+}
+
+// jsonType names the JSON type that decodes into a Go kind.
+func jsonType(k reflect.Kind) string {
+	switch k {
+	case reflect.String:
+		return "string"
+	case reflect.Bool:
+		return "boolean"
+	case reflect.Slice, reflect.Array:
+		return "array"
+	case reflect.Struct, reflect.Map:
+		return "object"
+	case reflect.Int, reflect.Int8, reflect.Int16, reflect.Int32, reflect.Int64, reflect.Uint, reflect.Uint8, reflect.Uint16, reflect.Uint32, reflect.Uint64:
+		return "integer"
+	}
+	return "number"
 }
 
 // check validates the set and every entry; errors name the entry.
