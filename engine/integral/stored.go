@@ -14,12 +14,12 @@ type PairClass struct {
 	Self   bool
 }
 
-// storedBlock is one stored quartet of pair classes (bra ≥ ket) with its
-// packed non-zero values.
+// storedBlock is one stored quartet of pair classes (bra ≥ ket): its
+// chunk and the offsets of its packed values and row counts there.
 type storedBlock struct {
 	bra, ket int32
-	vals     []float64
-	pos, cnt []uint16
+	chunk    int32
+	c0, v0   int64
 }
 
 // Stored is a read-only view of the screened integrals held in core. It
@@ -30,9 +30,11 @@ type storedBlock struct {
 // exactly zero are stored as absent and unpack as 0. All methods are safe
 // for concurrent use, also alongside J/K builds of the engine.
 type Stored struct {
-	classes []PairClass
-	blocks  []storedBlock
-	values  int64
+	classes  []PairClass
+	blocks   []storedBlock
+	vals     [][]float64 // per chunk
+	pos, cnt [][]uint16
+	values   int64
 }
 
 // InCore reports whether the screened unique integrals are held in memory.
@@ -64,8 +66,12 @@ func (e *ERI) Stored() *Stored {
 		}
 	}
 	// The same traversal as the store pass of runChunk.
-	for _, c := range st.chunks {
-		ov, oc := 0, 0
+	s.blocks = make([]storedBlock, 0, st.unique)
+	for ci, c := range st.chunks {
+		s.vals = append(s.vals, c.vals)
+		s.pos = append(s.pos, c.pos)
+		s.cnt = append(s.cnt, c.cnt)
+		var ov, oc int64
 		for _, P32 := range c.rows {
 			P := int(P32)
 			A := &e.pairs[P]
@@ -74,22 +80,14 @@ func (e *ERI) Stored() *Stored {
 				if qp*e.schwarzP[Q] < e.thr {
 					continue
 				}
-				cnt := c.cnt[oc : oc+A.ntot : oc+A.ntot]
-				k := 0
-				for _, m := range cnt {
-					k += int(m)
+				s.blocks = append(s.blocks, storedBlock{bra: int32(P), ket: int32(Q), chunk: int32(ci), c0: oc, v0: ov})
+				for _, m := range c.cnt[oc : oc+int64(A.ntot)] {
+					ov += int64(m)
 				}
-				s.blocks = append(s.blocks, storedBlock{
-					bra: int32(P), ket: int32(Q),
-					vals: c.vals[ov : ov+k : ov+k],
-					pos:  c.pos[ov : ov+k : ov+k],
-					cnt:  cnt,
-				})
-				s.values += int64(k)
-				ov += k
-				oc += A.ntot
+				oc += int64(A.ntot)
 			}
 		}
+		s.values += ov
 	}
 	return s
 }
@@ -124,11 +122,13 @@ func (s *Stored) Unpack(k int, out []float64) {
 	for i := range out {
 		out[i] = 0
 	}
+	cnt := s.cnt[b.chunk][b.c0 : b.c0+int64(nb)]
+	vals, pos := s.vals[b.chunk][b.v0:], s.pos[b.chunk][b.v0:]
 	o := 0
-	for f, m := range b.cnt {
+	for f, m := range cnt {
 		row := out[f*nk : (f+1)*nk]
-		for t, v := range b.vals[o : o+int(m)] {
-			row[b.pos[o+t]] = v
+		for t, v := range vals[o : o+int(m)] {
+			row[pos[o+t]] = v
 		}
 		o += int(m)
 	}
