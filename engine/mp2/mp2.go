@@ -23,7 +23,7 @@
 // recomputed shell quartet by shell quartet (direct). Cost O(o N⁴) for
 // the first two quarters, O(o² N³) after; memory: the batch buffer (≥ one
 // j: N·N(N+1)/2 doubles, 62 MiB at N = 250) plus O(o v N) per worker, and
-// on the in-core path a slab buffer of at most 256 MiB (what the budget
+// on the in-core path a slab buffer of at most 128 MiB (what the budget
 // leaves, at least 16 MiB or one pair class). MP2 itself never holds the
 // full AO or MO tensor, so energies of 250 basis functions (whose
 // integrals do not fit the engine's default in-core budget) fit in 2 GiB

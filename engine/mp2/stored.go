@@ -12,7 +12,7 @@ import (
 // instead of recomputing every shell quartet: the ket pairs λ ≥ σ are
 // taken in slabs (whole pair classes of the store, as many as fit
 // maxSlabBytes); for each slab one sweep over the stored blocks scatters
-// (μν|λσ) into X[μ][λσ][ν] (each element comes from exactly one block,
+// (μν|λσ) into X[λσ][μ][ν] (each element comes from exactly one block,
 // using the 8-fold symmetry), and the two quarter transformations are
 // dense matrix products over fixed tiles of the slab. Every element of
 // the result is one fixed sequence of products whatever the number of
@@ -24,7 +24,7 @@ type storedSource interface {
 }
 
 // maxSlabBytes caps the X buffer of one slab.
-const maxSlabBytes = int64(256) << 20
+const maxSlabBytes = int64(128) << 20
 
 // minSlabBytes is what a slab may use even when the budget is spent on
 // the half-transformed integrals.
@@ -119,7 +119,7 @@ func (p *problem) halfTransformStored(sp *storedPlan, rho, j0, j1, pStart, nP in
 				}
 			}
 		}
-		x = grow(x, n*nls*n) // X[μ][slot][ν]
+		x = grow(x, nls*n*n) // X[slot][μ][ν]
 		p.parallel(st.NumBlocks(), func(w, k int, scr *scratch) {
 			P, Q := st.Block(k)
 			bp, bq := base[P], base[Q]
@@ -149,8 +149,8 @@ func (p *problem) halfTransformStored(sp *storedPlan, rho, j0, j1, pStart, nP in
 							continue
 						}
 						mu, nu := int(bra.Mu[f]), int(bra.Nu[f])
-						x[(mu*nls+s)*n+nu] = v
-						x[(nu*nls+s)*n+mu] = v
+						x[(s*n+mu)*n+nu] = v
+						x[(s*n+nu)*n+mu] = v
 					}
 				}
 			}
@@ -167,8 +167,8 @@ func (p *problem) halfTransformStored(sp *storedPlan, rho, j0, j1, pStart, nP in
 							continue
 						}
 						la, si := int(ket.Mu[g]), int(ket.Nu[g])
-						x[(la*nls+s)*n+si] = v
-						x[(si*nls+s)*n+la] = v
+						x[(s*n+la)*n+si] = v
+						x[(s*n+si)*n+la] = v
 					}
 				}
 			}
@@ -177,12 +177,15 @@ func (p *problem) halfTransformStored(sp *storedPlan, rho, j0, j1, pStart, nP in
 		p.parallel(ntile, func(w, t int, scr *scratch) {
 			s0 := t * slabTile
 			ts := min(slabTile, nls-s0)
-			xt := blas64.General{Rows: n, Cols: ts * n, Stride: nls * n, Data: x[s0*n:]}
-			// Y[j][(s,ν)] = Σ_μ C[μ][j] X[μ][(s,ν)]
-			scr.y = grow(scr.y, nb*ts*n)
-			gemm(blas.Trans, blas.NoTrans, 1, cb, xt, 0, gen(nb, ts*n, scr.y))
+			// Y[j][(s,ν)] = Σ_μ C[μ][j] X[s][μ][ν]
+			scr.y = fit(scr.y, nb*ts*n)
+			for s := 0; s < ts; s++ {
+				xs := gen(n, n, x[(s0+s)*n*n:(s0+s+1)*n*n])
+				ys := blas64.General{Rows: nb, Cols: n, Stride: ts * n, Data: scr.y[s*n:]}
+				gemm(blas.Trans, blas.NoTrans, 1, cb, xs, 0, ys)
+			}
 			// Z[(j,s)][p] = Σ_ν Y[(j,s)][ν] C[ν][p]
-			scr.z = grow(scr.z, nb*ts*nP)
+			scr.z = fit(scr.z, nb*ts*nP)
 			gemm(blas.NoTrans, blas.NoTrans, 1, gen(nb*ts, n, scr.y), cp, 0, gen(nb*ts, nP, scr.z))
 			for j := 0; j < nb; j++ {
 				dst := buf[j*nP*npair:]
@@ -196,4 +199,13 @@ func (p *problem) halfTransformStored(sp *storedPlan, rho, j0, j1, pStart, nP in
 			}
 		})
 	}
+}
+
+// fit returns s with length n, reallocated when too small, not cleared
+// (for outputs that are overwritten).
+func fit(s []float64, n int) []float64 {
+	if cap(s) < n {
+		return make([]float64, n)
+	}
+	return s[:n]
 }
