@@ -268,6 +268,15 @@ func cmdImport(args []string, stdout, stderr io.Writer) int {
 	if err != nil {
 		return fail(stderr, exitUsage, "import", fmt.Errorf("%v; nothing was imported", err))
 	}
+	if len(recs) == 0 {
+		// Nothing to write: no archive is created or opened for writing.
+		if *asJSON {
+			printJSON(stdout, archive.ImportReport{Source: pos[0], Refused: []archive.Refusal{}})
+		} else {
+			fmt.Fprintf(stdout, "%s: no records; nothing was imported\n", pos[0])
+		}
+		return exitOK
+	}
 	st, code, err := af.open(false, stderr)
 	if err != nil {
 		return fail(stderr, code, "import", err)

@@ -1,0 +1,460 @@
+package main
+
+import (
+	"bytes"
+	"encoding/json"
+	"fmt"
+	"os"
+	"path/filepath"
+	"regexp"
+	"strings"
+	"testing"
+
+	"moltrail/archive"
+)
+
+// These tests hold every command to the outside contract through
+// dispatch, in-process: bad usage or input exits 2, failed work exits 1,
+// each with one sentence on stderr naming what is at fault, nothing on
+// stdout, never a panic, and no archive created or changed by a refusal;
+// --json prints exactly one JSON value.
+
+// call runs one command line through dispatch.
+func call(args ...string) result {
+	var out, errb bytes.Buffer
+	code := dispatch(args, &out, &errb)
+	return result{out.String(), errb.String(), code}
+}
+
+// contractFixture is an archive with two H2 records (STO-3G, RHF and
+// UHF), a molecule file and the ids, shared by the tests of this file.
+type contractFixture struct {
+	dir, arch, xyz string
+	ids            []string
+}
+
+func newContractFixture(t *testing.T) *contractFixture {
+	t.Helper()
+	f := &contractFixture{dir: t.TempDir()}
+	f.arch = filepath.Join(f.dir, "arch")
+	f.xyz = writeFile(t, f.dir, "h2.xyz", h2XYZ)
+	for _, m := range []string{"rhf", "uhf"} {
+		r := call("run", "--archive", f.arch, "--basis", "sto-3g", "--method", m, "--json", f.xyz)
+		if r.code != 0 {
+			t.Fatalf("run %s: exit %d: %s", m, r.code, r.stderr)
+		}
+		f.ids = append(f.ids, decodeRecord(t, r.stdout).ID)
+	}
+	return f
+}
+
+// snapshot is the archive's whole content (records and notes as exported,
+// plus the verify counts), to show that a refused command changed nothing.
+func (f *contractFixture) snapshot(t *testing.T, arch string) string {
+	t.Helper()
+	if _, err := os.Stat(arch); err != nil {
+		return "(none)"
+	}
+	e := call("export", "--archive", arch, "--out", "-")
+	v := call("verify", "--archive", arch, "--json")
+	return e.stdout + v.stdout
+}
+
+func TestBadInputContract(t *testing.T) {
+	f := newContractFixture(t)
+	d := f.dir
+	xyz := func(name, text string) string { return writeFile(t, d, name, text) }
+	fresh := filepath.Join(d, "fresh") // must never come into being
+	plain := writeFile(t, d, "plain.txt", "not an archive")
+	other := filepath.Join(d, "other")
+	os.Mkdir(other, 0o755)
+	writeFile(t, other, "mine.txt", "someone's file")
+	refs := func(name, entry string) string {
+		return writeFile(t, d, name, `{"format": "moltrail-refset/1", "name": "t", "description": "", "source": "s", "entries": [`+entry+`]}`)
+	}
+	const okEntry = `{"id": "h.r", "molecule": {"name": "hydrogen", "formula": "H2", "atoms": ["H","H"]}, "quantity": {"kind": "bond_length", "atoms": [0,1]}, "value": 74.1, "unit": "pm", "uncertainty": 0.1, "kind": "experiment", "source": "s"}`
+	exported := call("export", "--archive", f.arch, "--out", "-").stdout
+	line1 := strings.SplitN(exported, "\n", 2)[0]
+
+	cases := []struct {
+		name string
+		args []string
+		want string // in the one stderr line
+	}{
+		// Molecule files.
+		{"xyz count too high", []string{"run", "--archive", fresh, xyz("hi.xyz", "3\nw\nH 0 0 0\nH 0 0 1\n")}, "hi.xyz:5: the count line promises 3 atoms"},
+		{"xyz count too low", []string{"run", "--archive", fresh, xyz("lo.xyz", "1\nw\nH 0 0 0\nH 0 0 1\n")}, "lo.xyz:4:"},
+		{"xyz count not a number", []string{"run", "--archive", fresh, xyz("word.xyz", "two\nw\nH 0 0 0\nH 0 0 1\n")}, "word.xyz:1:"},
+		{"xyz unknown element", []string{"run", "--archive", fresh, xyz("el.xyz", "2\nw\nXx 0 0 0\nH 0 0 1\n")}, `el.xyz:3: unknown element symbol "Xx"`},
+		{"xyz non-numeric", []string{"run", "--archive", fresh, xyz("nn.xyz", "2\nw\nH 0 0 abc\nH 0 0 1\n")}, `nn.xyz:3: coordinate z "abc" is not a number`},
+		{"xyz NaN", []string{"run", "--archive", fresh, xyz("nan.xyz", "2\nw\nH 0 NaN 0\nH 0 0 1\n")}, "nan.xyz:3: coordinate y is NaN"},
+		{"xyz duplicate atoms", []string{"run", "--archive", fresh, xyz("dup.xyz", "2\nw\nH 0 0 0.5\nH 0 0 0.5\n")}, "dup.xyz:4: atom 2 (H) sits on the position of atom 1"},
+		{"xyz empty", []string{"run", "--archive", fresh, xyz("empty.xyz", "")}, "empty.xyz:1:"},
+		{"xyz missing", []string{"run", "--archive", fresh, filepath.Join(d, "absent.xyz")}, "absent.xyz: no such file"},
+		{"xyz is a directory", []string{"run", "--archive", fresh, d}, "is a directory"},
+		// Levels and electrons.
+		{"unknown basis", []string{"run", "--archive", fresh, "--basis", "no-such-basis", f.xyz}, `basis "no-such-basis" is not in the library`},
+		{"basis lacks element", []string{"run", "--archive", fresh, "--basis", "6-311++G**", xyz("kr.xyz", "1\nkrypton\nKr 0 0 0\n")}, `basis "6-311++G**" has no functions for element Kr`},
+		{"impossible multiplicity", []string{"run", "--archive", fresh, "--multiplicity", "2", f.xyz}, "multiplicity 2 is impossible with 2 electrons"},
+		{"no electrons left", []string{"run", "--archive", fresh, "--charge", "2", f.xyz}, "charge +2 leaves 0 electrons"},
+		{"too many unpaired", []string{"run", "--archive", fresh, "--multiplicity", "5", f.xyz}, "multiplicity 5 needs 4 unpaired electrons"},
+		{"unknown method", []string{"run", "--archive", fresh, "--method", "ccsd", f.xyz}, `method "ccsd" is not known`},
+		{"unknown task", []string{"run", "--archive", fresh, "--task", "freq", f.xyz}, `task "freq" is not known`},
+		{"frozen core with hf", []string{"run", "--archive", fresh, "--frozen-core", f.xyz}, "frozen core applies to correlated methods"},
+		{"negative threads", []string{"run", "--archive", fresh, "--threads", "-1", f.xyz}, "--threads -1"},
+		{"bad tag", []string{"run", "--archive", fresh, "--tag", "novalue", f.xyz}, `--tag "novalue" must be KEY=VALUE`},
+		{"two molecule files", []string{"run", "--archive", fresh, f.xyz, f.xyz}, "give exactly one molecule file"},
+		{"cartesian and spherical", []string{"run", "--archive", fresh, "--cartesian", "--spherical", f.xyz}, "exclude each other"},
+		// Flags.
+		{"unknown flag", []string{"run", "--archive", fresh, "--chrge", "1", f.xyz}, "there is no flag --chrge"},
+		{"flag value not a number", []string{"run", "--archive", fresh, "--charge", "one", f.xyz}, `--charge "one": a whole number is needed`},
+		{"flag lacks its value", []string{"run", f.xyz, "--archive"}, "--archive needs a value"},
+		{"bad duration", []string{"list", "--archive", f.arch, "--wait", "5"}, `--wait "5": a duration`},
+		{"unknown command", []string{"frobnicate"}, `"frobnicate" is not a command`},
+		{"help for unknown command", []string{"help", "frobnicate"}, `"frobnicate" is not a command`},
+		{"version argument", []string{"version", "extra"}, `unexpected argument "extra"`},
+		// Archive places.
+		{"archive is a file (read)", []string{"list", "--archive", plain}, "is a file, not an archive directory"},
+		{"archive is a file (run)", []string{"run", "--archive", plain, f.xyz}, "is a file, not an archive directory"},
+		{"archive dir of other files", []string{"run", "--archive", other, f.xyz}, "holds 1 file(s) but no archive"},
+		{"no archive", []string{"list", "--archive", fresh}, "no archive at"},
+		// Record ids.
+		{"id not hex", []string{"show", "--archive", f.arch, "zzzz"}, `record id "zzzz" must be 4 to 64 hex digits`},
+		{"id too short", []string{"show", "--archive", f.arch, "ab"}, "must be 4 to 64 hex digits"},
+		{"unknown id", []string{"show", "--archive", f.arch, unknownPrefix(f.ids)}, "no record id starts with"},
+		{"diff unknown id", []string{"diff", "--archive", f.arch, f.ids[0], unknownPrefix(f.ids)}, "no record id starts with"},
+		{"diff one id", []string{"diff", "--archive", f.arch, f.ids[0]}, "give two record ids"},
+		{"note without text", []string{"note", "--archive", f.arch, f.ids[0], " "}, "give a record id and the note text"},
+		{"reproduce unknown id", []string{"reproduce", "--archive", f.arch, unknownPrefix(f.ids)}, "no record id starts with"},
+		// Filters.
+		{"bad status", []string{"list", "--archive", f.arch, "--status", "ok"}, `--status "ok"`},
+		{"bad since", []string{"list", "--archive", f.arch, "--since", "last tuesday"}, `--since "last tuesday"`},
+		{"bad until", []string{"compare", "--archive", f.arch, "--refs", "builtin", "--until", "soon"}, `--until "soon"`},
+		// Output files.
+		{"export to a directory", []string{"export", "--archive", f.arch, "--out", d}, "is a directory"},
+		{"export to a missing directory", []string{"export", "--archive", f.arch, "--out", filepath.Join(d, "no", "x.jsonl")}, "does not exist"},
+		{"report to a missing directory", []string{"report", "--archive", f.arch, "--refs", "builtin", "--out", filepath.Join(d, "no", "r.pdf")}, "does not exist"},
+		{"report to a directory", []string{"report", "--archive", f.arch, "--refs", "builtin", "--out", d}, "is a directory"},
+		{"report config unknown key", []string{"report", "--archive", f.arch, "--refs", "builtin", "--out", filepath.Join(d, "r.pdf"), "--config", writeFile(t, d, "c1.json", `{"titel": "x"}`)}, `unknown key "titel"`},
+		{"report config wrong type", []string{"report", "--archive", f.arch, "--refs", "builtin", "--out", filepath.Join(d, "r.pdf"), "--config", writeFile(t, d, "c2.json", `{"title": 3}`)}, `"title" must be text`},
+		{"report bad format", []string{"report", "--archive", f.arch, "--refs", "builtin", "--format", "docx", "--out", filepath.Join(d, "r.docx")}, `--format "docx"`},
+		// Imports: nothing is imported from a bad file.
+		{"import missing file", []string{"import", "--archive", f.arch, filepath.Join(d, "absent.jsonl")}, "absent.jsonl: no such file"},
+		{"import garbage line", []string{"import", "--archive", f.arch, writeFile(t, d, "g.jsonl", line1+"\n]]]\n")}, "g.jsonl:2: not valid JSON"},
+		{"import truncated", []string{"import", "--archive", f.arch, writeFile(t, d, "cut.jsonl", line1[:len(line1)/2])}, "cut.jsonl:1: the last line is incomplete"},
+		{"import wrong schema", []string{"import", "--archive", f.arch, writeFile(t, d, "schema.jsonl", `{"id": "x"}`+"\n")}, "schema.jsonl:1: field /: missing properties"},
+		// Reference sets.
+		{"refs missing", []string{"compare", "--archive", f.arch}, "--refs is required"},
+		{"refs unknown set", []string{"compare", "--archive", f.arch, "--refs", "no-such-set"}, `reference set "no-such-set" is neither a built-in set`},
+		{"refs unknown molecule formula", []string{"compare", "--archive", f.arch, "--refs", refs("mol.json", strings.Replace(okEntry, `"formula": "H2"`, `"formula": "Uo2"`, 1))}, `entry "h.r"`},
+		{"refs unknown unit", []string{"compare", "--archive", f.arch, "--refs", refs("unit.json", strings.Replace(okEntry, `"pm"`, `"furlong"`, 1))}, `entry "h.r" (hydrogen): unit "furlong" is not known`},
+		{"refs atom index", []string{"compare", "--archive", f.arch, "--refs", refs("idx.json", strings.Replace(okEntry, `[0,1]`, `[0,5]`, 1))}, "atom index 5 is out of range"},
+		{"refs malformed JSON", []string{"compare", "--archive", f.arch, "--refs", writeFile(t, d, "broken.json", "{\n\"format\": \"moltrail-refset/1\",\n\"name\": }")}, "broken.json: line 3"},
+		{"refs in report", []string{"report", "--archive", f.arch, "--out", filepath.Join(d, "r.pdf"), "--refs", refs("unit2.json", strings.Replace(okEntry, `"pm"`, `"furlong"`, 1))}, `unit "furlong"`},
+		{"compare bootstrap range", []string{"compare", "--archive", f.arch, "--refs", "builtin", "--bootstrap", "5"}, "--bootstrap 5 is outside"},
+		// Trace.
+		{"trace not a number", []string{"trace", "--archive", f.arch, "abc"}, `"abc" is not a number`},
+		{"trace unknown unit", []string{"trace", "--archive", f.arch, "1.5", "--unit", "furlong"}, `--unit "furlong" is not known`},
+		{"basis unknown name", []string{"basis", "no-such-basis"}, "no library set is called no-such-basis"},
+	}
+	before := f.snapshot(t, f.arch)
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			r := call(c.args...)
+			checkRefusal(t, r, exitUsage, c.want)
+		})
+	}
+	if after := f.snapshot(t, f.arch); after != before {
+		t.Error("a refused command changed the archive")
+	}
+	if _, err := os.Stat(fresh); err == nil {
+		t.Error("a refused command created an archive")
+	}
+	if ents, _ := os.ReadDir(other); len(ents) != 1 {
+		t.Errorf("a refused run wrote into a directory of other files: %d entries", len(ents))
+	}
+	for _, p := range []string{filepath.Join(d, "r.pdf"), filepath.Join(d, "r.docx")} {
+		if _, err := os.Stat(p); err == nil {
+			t.Errorf("a refused report left %s behind", p)
+		}
+	}
+}
+
+// checkRefusal: exit code, nothing on stdout, one line on stderr that
+// carries want and starts with the program's name, no panic.
+func checkRefusal(t *testing.T, r result, code int, want string) {
+	t.Helper()
+	if r.code != code {
+		t.Errorf("exit %d, want %d (stderr %q)", r.code, code, r.stderr)
+	}
+	if r.stdout != "" {
+		t.Errorf("stdout not empty: %q", r.stdout)
+	}
+	msg := strings.TrimSpace(r.stderr)
+	if strings.Count(msg, "\n") > 0 {
+		t.Errorf("stderr is %d lines, want one sentence: %q", strings.Count(msg, "\n")+1, msg)
+	}
+	if !strings.HasPrefix(msg, "moltrail") || !strings.Contains(msg, want) {
+		t.Errorf("stderr %q should say %q", msg, want)
+	}
+	if strings.Contains(msg, "panic") || strings.Contains(msg, "internal error") || strings.Contains(msg, "goroutine") {
+		t.Errorf("a crash reached the user: %q", msg)
+	}
+}
+
+// unknownPrefix is a 6-digit id prefix that no record in ids has.
+func unknownPrefix(ids []string) string {
+	for i := 0; ; i++ {
+		p := fmt.Sprintf("%06x", i)
+		taken := false
+		for _, id := range ids {
+			taken = taken || strings.HasPrefix(id, p)
+		}
+		if !taken {
+			return p
+		}
+	}
+}
+
+// TestAmbiguousPrefix: two records whose ids share their first four hex
+// digits; the four-digit prefix is refused naming both, five digits work.
+func TestAmbiguousPrefix(t *testing.T) {
+	f := newContractFixture(t)
+	base := decodeRecord(t, call("show", "--archive", f.arch, "--json", f.ids[0]).stdout)
+	seen := map[string]*archive.Record{}
+	var a, b *archive.Record
+	for i := 0; a == nil; i++ { // about 300 seals until two ids share 4 digits
+		c := *base
+		c.Tags = map[string]string{"copy": fmt.Sprint(i)}
+		c.Lineage = nil
+		if err := c.Seal(); err != nil {
+			t.Fatal(err)
+		}
+		if o, ok := seen[c.ID[:4]]; ok && o.ID[:5] != c.ID[:5] {
+			a, b = o, &c
+		}
+		seen[c.ID[:4]] = &c
+	}
+	var lines []string
+	for _, r := range []*archive.Record{a, b} {
+		enc, _ := r.Encode()
+		lines = append(lines, string(enc))
+	}
+	if r := call("import", "--archive", f.arch, writeFile(t, f.dir, "pair.jsonl", strings.Join(lines, "\n")+"\n")); r.code != 0 {
+		t.Fatalf("import: %s", r.stderr)
+	}
+	r := call("show", "--archive", f.arch, a.ID[:4])
+	checkRefusal(t, r, exitUsage, "is ambiguous")
+	if !strings.Contains(r.stderr, a.ID[:12]) || !strings.Contains(r.stderr, b.ID[:12]) {
+		t.Errorf("the ambiguity should name both records: %q", r.stderr)
+	}
+	if r := call("show", "--archive", f.arch, "--json", a.ID[:5]); r.code != 0 || decodeRecord(t, r.stdout).ID != a.ID {
+		t.Errorf("a longer prefix should find the record: exit %d %s", r.code, r.stderr)
+	}
+}
+
+// TestDamagedArchive: table files cut short or overwritten are named in
+// one sentence with exit 1 by every reading and writing command; nothing
+// panics.
+func TestDamagedArchive(t *testing.T) {
+	f := newContractFixture(t)
+	ssts, _ := filepath.Glob(filepath.Join(f.arch, "*.sst"))
+	if len(ssts) == 0 {
+		t.Fatal("the fixture archive has no table file")
+	}
+	for _, damage := range []struct {
+		name string
+		do   func(path string) error
+	}{
+		{"truncated", func(p string) error { return os.Truncate(p, 50) }},
+		{"emptied", func(p string) error { return os.Truncate(p, 0) }},
+	} {
+		t.Run(damage.name, func(t *testing.T) {
+			arch := filepath.Join(t.TempDir(), "copy")
+			copyDir(t, f.arch, arch)
+			if err := damage.do(filepath.Join(arch, filepath.Base(ssts[0]))); err != nil {
+				t.Fatal(err)
+			}
+			for _, args := range [][]string{
+				{"list"}, {"verify"}, {"show", f.ids[0]}, {"export", "--out", "-"},
+				{"compare", "--refs", "builtin"}, {"trace", "1.0"}, {"note", f.ids[0], "x"},
+				{"run", "--basis", "sto-3g", "--force", f.xyz},
+			} {
+				r := call(append(args, "--archive", arch)...)
+				checkRefusal(t, r, exitFailed, "is damaged: table file")
+			}
+		})
+	}
+}
+
+func copyDir(t *testing.T, from, to string) {
+	t.Helper()
+	if err := os.MkdirAll(to, 0o755); err != nil {
+		t.Fatal(err)
+	}
+	ents, err := os.ReadDir(from)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, e := range ents {
+		b, err := os.ReadFile(filepath.Join(from, e.Name()))
+		if err != nil {
+			t.Fatal(err)
+		}
+		if err := os.WriteFile(filepath.Join(to, e.Name()), b, 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+}
+
+// TestJSONOutputIsOneValue: with --json every command prints exactly one
+// JSON value on stdout and nothing else there.
+func TestJSONOutputIsOneValue(t *testing.T) {
+	f := newContractFixture(t)
+	d := f.dir
+	out := filepath.Join(d, "all.jsonl")
+	for _, args := range [][]string{
+		{"run", "--archive", f.arch, "--basis", "sto-3g", f.xyz},
+		{"list", "--archive", f.arch},
+		{"list", "--archive", f.arch, "--molecule", "nothing"},
+		{"show", "--archive", f.arch, f.ids[0][:8]},
+		{"verify", "--archive", f.arch},
+		{"export", "--archive", f.arch, "--out", out},
+		{"import", "--archive", filepath.Join(d, "second"), out},
+		{"import", "--archive", filepath.Join(d, "second"), writeFile(t, d, "empty.jsonl", "")},
+		{"note", "--archive", f.arch, f.ids[0], "checked"},
+		{"basis", "sto-3g"},
+		{"version"},
+		{"trace", "--archive", f.arch, "74.0", "--unit", "pm"},
+		{"trace", "--archive", f.arch, "-1.11"},
+		{"diff", "--archive", f.arch, f.ids[0], f.ids[1]},
+		{"compare", "--archive", f.arch, "--refs", "builtin"},
+		{"report", "--archive", f.arch, "--refs", "builtin", "--out", filepath.Join(d, "r.md")},
+		{"reproduce", "--archive", f.arch, f.ids[0]},
+	} {
+		t.Run(args[0], func(t *testing.T) {
+			r := call(append(args, "--json")...)
+			if r.code != exitOK {
+				t.Fatalf("%v: exit %d: %s", args, r.code, r.stderr)
+			}
+			dec := json.NewDecoder(strings.NewReader(r.stdout))
+			var v any
+			if err := dec.Decode(&v); err != nil {
+				t.Fatalf("%v: stdout is not JSON: %v\n%s", args, err, r.stdout)
+			}
+			if dec.More() || strings.TrimSpace(r.stdout[dec.InputOffset():]) != "" {
+				t.Fatalf("%v: more than one JSON value on stdout:\n%s", args, r.stdout)
+			}
+		})
+	}
+	if _, err := os.Stat(filepath.Join(d, "second")); err != nil {
+		t.Errorf("the non-empty import did not create its archive: %v", err)
+	}
+}
+
+// TestHelp: help goes to stdout with exit 0 and lists every flag as
+// --name; a bare moltrail prints the overview on stderr with exit 2.
+func TestHelp(t *testing.T) {
+	r := call()
+	if r.code != exitUsage || r.stdout != "" || !strings.Contains(r.stderr, "usage: moltrail COMMAND") {
+		t.Errorf("bare moltrail: exit %d, stdout %q", r.code, r.stdout)
+	}
+	r = call("help")
+	if r.code != exitOK || r.stderr != "" {
+		t.Errorf("help: exit %d, stderr %q", r.code, r.stderr)
+	}
+	for name := range commands {
+		if !strings.Contains(r.stdout, "  "+name+" ") {
+			t.Errorf("help does not list %s", name)
+		}
+	}
+	for _, name := range []string{"run", "list", "show", "verify", "export", "import", "note", "basis", "version", "reproduce", "trace", "diff", "compare", "report"} {
+		for _, form := range [][]string{{"help", name}, {name, "--help"}, {name, "-h"}} {
+			r := call(form...)
+			if r.code != exitOK || r.stderr != "" || !strings.HasPrefix(r.stdout, "moltrail "+name+" — ") || !strings.Contains(r.stdout, "usage: moltrail "+name) {
+				t.Errorf("%v: exit %d, stderr %q, stdout starts %q", form, r.code, r.stderr, firstLine(r.stdout))
+			}
+			if singleDash.MatchString(r.stdout) || strings.Contains(r.stdout, "`") {
+				t.Errorf("%v: flags should read --name VALUE:\n%s", form, r.stdout)
+			}
+		}
+	}
+}
+
+var singleDash = regexp.MustCompile(`\n  -[a-z]`)
+
+func firstLine(s string) string {
+	l, _, _ := strings.Cut(s, "\n")
+	return l
+}
+
+// TestParseFlags: flags before, between and after arguments; negative
+// numbers are arguments unless a flag takes them as its value; "--" ends
+// the flags.
+func TestParseFlags(t *testing.T) {
+	cases := []struct {
+		args  []string
+		pos   []string
+		n     int
+		json  bool
+		code  int
+		valid bool
+	}{
+		{[]string{"a", "--n", "3", "b"}, []string{"a", "b"}, 3, false, 0, true},
+		{[]string{"-76.0268", "--json"}, []string{"-76.0268"}, 0, true, 0, true},
+		{[]string{"--n", "-2", "-.5"}, []string{"-.5"}, -2, false, 0, true},
+		{[]string{"--n=-4", "x"}, []string{"x"}, -4, false, 0, true},
+		{[]string{"--json", "--", "--n", "-x"}, []string{"--n", "-x"}, 0, true, 0, true},
+		{[]string{"-x"}, nil, 0, false, exitUsage, false},
+		{[]string{"--n", "many"}, nil, 0, false, exitUsage, false},
+		{[]string{"--help"}, nil, 0, false, exitOK, false},
+	}
+	for _, c := range cases {
+		var errb bytes.Buffer
+		fs := newFlags("probe", &errb, "[ARGS]")
+		n := fs.Int("n", 0, "a number")
+		js := fs.Bool("json", false, "JSON")
+		pos, code, ok := parseFlags(fs, c.args)
+		if ok != c.valid || code != c.code {
+			t.Errorf("%q: ok %v code %d, want %v %d (%s)", c.args, ok, code, c.valid, c.code, errb.String())
+			continue
+		}
+		if !ok {
+			continue
+		}
+		if strings.Join(pos, "|") != strings.Join(c.pos, "|") || *n != c.n || *js != c.json {
+			t.Errorf("%q: pos %q n %d json %v, want %q %d %v", c.args, pos, *n, *js, c.pos, c.n, c.json)
+		}
+	}
+}
+
+// TestHumanOutputForms: times in UTC ISO 8601, energies with units, no
+// negative zeros, charge 0 without a sign.
+func TestHumanOutputForms(t *testing.T) {
+	f := newContractFixture(t)
+	show := call("show", "--archive", f.arch, f.ids[0]).stdout
+	for _, want := range []string{"charge 0,", "hartree", "started UTC", "Z\n"} {
+		if !strings.Contains(show, want) {
+			t.Errorf("show lacks %q:\n%s", want, show)
+		}
+	}
+	if strings.Contains(show, "-0.000000 ") || strings.Contains(show, "-0.000000,") || strings.Contains(show, "-0.000000)") || strings.Contains(show, "+0,") {
+		t.Errorf("show prints a negative zero or +0:\n%s", show)
+	}
+	list := call("list", "--archive", f.arch).stdout
+	if !strings.Contains(list, "uhf") || !strings.Contains(list, "energy/hartree") || !strings.Contains(list, "started UTC") {
+		t.Errorf("list should show the method, the energy unit and UTC times:\n%s", list)
+	}
+	if methodLabel("hf", "uhf") != "hf(uhf)" || methodLabel("uhf", "uhf") != "uhf" {
+		t.Error("methodLabel should add the SCF reference only when it says more")
+	}
+	for _, c := range []struct {
+		v    float64
+		prec int
+		want string
+	}{{-1e-17, 6, "0.000000"}, {-0.0, 3, "0.000"}, {-0.0000004, 6, "0.000000"}, {-0.0000006, 6, "-0.000001"}, {-76.5, 1, "-76.5"}} {
+		if got := fixed(c.v, c.prec); got != c.want {
+			t.Errorf("fixed(%g, %d) = %q, want %q", c.v, c.prec, got, c.want)
+		}
+	}
+}
