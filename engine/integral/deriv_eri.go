@@ -65,7 +65,14 @@ type dPair struct {
 	px           []float64 // 3 per primitive pair
 	kp           []float64 // c_a c_b exp(−μ R_AB²)/p
 	e            []float64 // [np][nf][nh0]
-	ed           []float64 // [np][6][nf][nh1]: ∂/∂A_x,y,z, ∂/∂B_x,y,z
+	// derivative coefficients in sparse form: for function pair f the
+	// Hermite indices uH[uStart[f]:uStart[f+1]] where some primitive and
+	// some direction has a nonzero coefficient; edU[k][d][j] the values
+	// (d = ∂/∂A_x,y,z, ∂/∂B_x,y,z) at those nu positions.
+	uStart []int32
+	uH     []int32
+	nu     int
+	edU    []float64
 	// Schwarz-type size estimates of each primitive pair's distribution
 	// (b0) and of its centre derivatives (b1):
 	// |kp| sqrt(2π^{5/2}/sqrt(2p)) max|E|; b0max is the largest b0.
@@ -103,6 +110,7 @@ func makeDPair(mb *basis.Molecular, i, j int, ta, tb []float64) *dPair {
 		eB[d] = make([]float64, nt)
 	}
 	ab2 := dist2(A.Centre, B.Centre)
+	var ed []float64 // dense [np][6][nf][nh1]
 	for pa, a := range A.Exponents {
 		for pb, b := range B.Exponents {
 			p := a + b
@@ -183,7 +191,7 @@ func makeDPair(mb *basis.Molecular, i, j int, ta, tb []float64) *dPair {
 				for _, v := range fd {
 					m1 = math.Max(m1, math.Abs(v))
 				}
-				dp.ed = append(dp.ed, fd...)
+				ed = append(ed, fd...)
 			}
 			sz := math.Abs(K/p) * math.Sqrt(twoPi52/math.Sqrt(2*p))
 			dp.b0 = append(dp.b0, sz*m0)
@@ -195,7 +203,44 @@ func makeDPair(mb *basis.Molecular, i, j int, ta, tb []float64) *dPair {
 			dp.np++
 		}
 	}
+	makeSparseDeriv(dp, ed)
 	return dp
+}
+
+// makeSparseDeriv keeps, per function pair, the Hermite indices where a
+// derivative coefficient is nonzero for some primitive and direction.
+func makeSparseDeriv(dp *dPair, ed []float64) {
+	nf, nh := dp.nf, dp.nh1
+	dp.uStart = make([]int32, nf+1)
+	for f := 0; f < nf; f++ {
+		for h := 0; h < nh; h++ {
+			nz := false
+			for k := 0; k < dp.np && !nz; k++ {
+				for d := 0; d < 6; d++ {
+					if ed[((k*6+d)*nf+f)*nh+h] != 0 {
+						nz = true
+						break
+					}
+				}
+			}
+			if nz {
+				dp.uH = append(dp.uH, int32(h))
+			}
+		}
+		dp.uStart[f+1] = int32(len(dp.uH))
+	}
+	dp.nu = len(dp.uH)
+	dp.edU = make([]float64, dp.np*6*dp.nu)
+	for k := 0; k < dp.np; k++ {
+		for d := 0; d < 6; d++ {
+			dst := dp.edU[(k*6+d)*dp.nu : (k*6+d+1)*dp.nu]
+			for f := 0; f < nf; f++ {
+				for j := dp.uStart[f]; j < dp.uStart[f+1]; j++ {
+					dst[j] = ed[((k*6+d)*nf+f)*nh+int(dp.uH[j])]
+				}
+			}
+		}
+	}
 }
 
 // transformHerm takes Cartesian Hermite coefficients [nca·ncb][nh] to the
@@ -240,7 +285,6 @@ func transformHerm(ta []float64, nfa, nca int, tb []float64, nfb, ncb int, cart 
 type gradWork struct {
 	kg, x, g, gt []float64
 	f, r, tmp    []float64
-	rb           []float64
 }
 
 func grow(b []float64, n int) []float64 {
@@ -262,7 +306,7 @@ func sideGrad(P, Q *dPair, G []float64, gabs float64, w *gradWork) [6]float64 {
 		return out
 	}
 	nf, ng := P.nf, Q.nf
-	nh1, nhq := P.nh1, Q.nh0
+	nhq := Q.nh0
 	L := P.la + P.lb + Q.la + Q.lb + 1
 	// KΓ^c[f][h'] = Σ_g Γ[f][g] (−1)^{|h'|} E^c[g][h']
 	w.kg = grow(w.kg, Q.np*nf*nhq)
@@ -294,14 +338,16 @@ func sideGrad(P, Q *dPair, G []float64, gabs float64, w *gradWork) [6]float64 {
 			}
 		}
 	}
-	w.x = grow(w.x, nf*nh1)
+	// X[j] for the sparse positions (f, uH[j]) of the bra
+	nu := P.nu
+	w.x = grow(w.x, nu)
 	x := w.x
 	nhr := nHerm(L)
 	w.r, w.tmp = grow(w.r, nhr), grow(w.tmp, nhr)
 	w.f = grow(w.f, L+1)
-	w.rb = grow(w.rb, nhq)
-	r, tmp, fb, rb := w.r, w.tmp, w.f, w.rb
+	r, tmp, fb := w.r, w.tmp, w.f
 	sum, nph := herm.sum, herm.nPairH
+	uS, uH := P.uStart, P.uH
 	for a := 0; a < P.np; a++ {
 		ba := P.b1[a] * gabs
 		if ba*Q.b0max < primGradThreshold {
@@ -326,32 +372,29 @@ func sideGrad(P, Q *dPair, G []float64, gabs float64, w *gradWork) [6]float64 {
 			kc := kg[c*nf*nhq : (c+1)*nf*nhq]
 			if nhq == 1 {
 				// s–s ket: one Hermite term
-				for h := 0; h < nh1; h++ {
-					rv := r[sum[h*nph]]
-					for f, v := range kc {
-						x[f*nh1+h] += rv * v
+				for f := 0; f < nf; f++ {
+					v := kc[f]
+					for j := uS[f]; j < uS[f+1]; j++ {
+						x[j] += r[sum[int(uH[j])*nph]] * v
 					}
 				}
 				continue
 			}
-			for h := 0; h < nh1; h++ {
-				base := sum[h*nph : h*nph+nhq]
-				for k, hb := range base {
-					rb[k] = r[hb]
-				}
-				for f := 0; f < nf; f++ {
-					kr := kc[f*nhq : (f+1)*nhq]
+			for f := 0; f < nf; f++ {
+				kr := kc[f*nhq : (f+1)*nhq]
+				for j := uS[f]; j < uS[f+1]; j++ {
+					base := sum[int(uH[j])*nph : int(uH[j])*nph+nhq]
 					s := 0.0
-					for k, v := range kr {
-						s += rb[k] * v
+					for k, hb := range base {
+						s += r[hb] * kr[k]
 					}
-					x[f*nh1+h] += s
+					x[j] += s
 				}
 			}
 		}
-		ed := P.ed[a*6*nf*nh1 : (a+1)*6*nf*nh1]
+		ed := P.edU[a*6*nu : (a+1)*6*nu]
 		for d := 0; d < 6; d++ {
-			blk := ed[d*nf*nh1 : (d+1)*nf*nh1]
+			blk := ed[d*nu : (d+1)*nu]
 			s := 0.0
 			for k, v := range blk {
 				s += v * x[k]
