@@ -165,18 +165,14 @@ func (s *Store) Close() error {
 
 func (s *Store) initLayout() error {
 	return s.db.Update(func(txn *badger.Txn) error {
-		it, err := txn.Get(keyLayout)
-		if errors.Is(err, badger.ErrKeyNotFound) {
+		v, found, err := readLayout(txn)
+		if err != nil {
+			return err
+		}
+		if !found {
 			return txn.Set(keyLayout, []byte(LayoutVersion))
 		}
-		if err != nil {
-			return err
-		}
-		v, err := it.ValueCopy(nil)
-		if err != nil {
-			return err
-		}
-		if string(v) != LayoutVersion {
+		if v != LayoutVersion {
 			return fmt.Errorf("archive %s has key layout %q; this build writes %q", s.dir, v, LayoutVersion)
 		}
 		return nil
@@ -185,20 +181,30 @@ func (s *Store) initLayout() error {
 
 func (s *Store) checkLayout() error {
 	return s.db.View(func(txn *badger.Txn) error {
-		it, err := txn.Get(keyLayout)
-		if errors.Is(err, badger.ErrKeyNotFound) {
-			return nil // empty archive
-		}
-		if err != nil {
+		v, found, err := readLayout(txn)
+		if err != nil || !found { // not found: an empty archive
 			return err
 		}
-		v, err := it.ValueCopy(nil)
-		if err != nil {
-			return err
-		}
-		if string(v) != LayoutVersion {
+		if v != LayoutVersion {
 			return fmt.Errorf("archive %s has key layout %q; this build reads %q", s.dir, v, LayoutVersion)
 		}
 		return nil
 	})
+}
+
+// readLayout reads the stored key-layout version; found is false in an
+// archive that has none yet.
+func readLayout(txn *badger.Txn) (v string, found bool, err error) {
+	it, err := txn.Get(keyLayout)
+	if errors.Is(err, badger.ErrKeyNotFound) {
+		return "", false, nil
+	}
+	if err != nil {
+		return "", false, err
+	}
+	b, err := it.ValueCopy(nil)
+	if err != nil {
+		return "", false, err
+	}
+	return string(b), true, nil
 }

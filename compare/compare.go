@@ -2,6 +2,7 @@ package compare
 
 import (
 	"fmt"
+	"maps"
 	"math"
 	"sort"
 	"strings"
@@ -79,35 +80,15 @@ func keyOf(m *RefMolecule) molKey {
 	return molKey(normName(m.Name) + "|" + hill(f) + "|" + fmt.Sprint(m.Charge))
 }
 
-// hill writes element counts as a Hill formula.
+// hill writes element counts as a Hill formula (the engine's Formula).
 func hill(c map[string]int) string {
-	var syms []string
-	for s := range c {
-		syms = append(syms, s)
-	}
-	sort.Strings(syms)
-	var order []string
-	if c["C"] > 0 {
-		order = append(order, "C")
-		if c["H"] > 0 {
-			order = append(order, "H")
-		}
-		for _, s := range syms {
-			if s != "C" && s != "H" {
-				order = append(order, s)
-			}
-		}
-	} else {
-		order = syms
-	}
-	var b strings.Builder
-	for _, s := range order {
-		b.WriteString(s)
-		if c[s] > 1 {
-			fmt.Fprint(&b, c[s])
+	var m molecule.Molecule
+	for s, n := range c {
+		for ; n > 0; n-- {
+			m.Atoms = append(m.Atoms, molecule.Atom{Symbol: s})
 		}
 	}
-	return b.String()
+	return m.Formula()
 }
 
 // levelOf returns the level of a record.
@@ -199,7 +180,7 @@ func shortID(id string) string {
 func checkIdentity(entryID string, m *RefMolecule, rm *recMol) (other string, err error) {
 	want, _ := ParseFormula(m.Formula)
 	r := rm.rec
-	if !sameCounts(want, rm.counts) {
+	if !maps.Equal(want, rm.counts) {
 		return "", fmt.Errorf("entry %q (%s, %s): record %s is named %q but its atoms make %s: the names match, the molecules do not; rename the record's molecule or leave it out with a selection flag",
 			entryID, m.Name, m.Formula, shortID(r.ID), r.Input.Molecule.Name, hill(rm.counts))
 	}

@@ -595,3 +595,22 @@ func TestNamesAndAliases(t *testing.T) {
 		}
 	}
 }
+
+func TestHillFormula(t *testing.T) {
+	// Hill order: C, then H, then the rest alphabetically; without C all
+	// alphabetically (common practice, no source).
+	for _, c := range []struct {
+		counts map[string]int
+		want   string
+	}{
+		{map[string]int{"O": 1, "H": 6, "C": 2}, "C2H6O"},
+		{map[string]int{"H": 2, "O": 1}, "H2O"},
+		{map[string]int{"Cl": 1, "H": 1}, "ClH"},
+		{map[string]int{"O": 2, "C": 1}, "CO2"},
+		{map[string]int{"S": 1, "O": 1, "C": 1}, "COS"},
+	} {
+		if got := hill(c.counts); got != c.want {
+			t.Errorf("hill(%v) = %s, want %s", c.counts, got, c.want)
+		}
+	}
+}

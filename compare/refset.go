@@ -9,6 +9,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"maps"
 	"math"
 	"os"
 	"path"
@@ -485,7 +486,7 @@ func (m *RefMolecule) counts(needAtoms bool) (map[string]int, error) {
 			}
 			got[s]++
 		}
-		if !sameCounts(got, f) {
+		if !maps.Equal(got, f) {
 			return nil, fmt.Errorf("molecule %q: atoms %s do not add up to the formula %s", m.Name, strings.Join(m.Atoms, " "), m.Formula)
 		}
 	}
@@ -528,18 +529,6 @@ func ParseFormula(s string) (map[string]int, error) {
 		i = k
 	}
 	return out, nil
-}
-
-func sameCounts(a, b map[string]int) bool {
-	if len(a) != len(b) {
-		return false
-	}
-	for k, v := range a {
-		if b[k] != v {
-			return false
-		}
-	}
-	return true
 }
 
 // normName folds a molecule name for matching: lower case, without spaces,

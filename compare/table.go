@@ -32,6 +32,17 @@ type Table struct {
 	Settings Settings `json:"settings"`
 }
 
+// Flagged counts the deviations that carry at least one caution.
+func (t *Table) Flagged() int {
+	n := 0
+	for _, d := range t.Deviations {
+		if len(d.Cautions) > 0 {
+			n++
+		}
+	}
+	return n
+}
+
 // RefSetInfo identifies the reference set used.
 type RefSetInfo struct {
 	Name        string `json:"name"`

@@ -190,7 +190,7 @@ func (b *builder) summary() {
 	}
 	items = append(items, kv{txt("Basis sets"), txt(orNone(listOf(distinct(bs), false)))})
 	items = append(items, kv{txt("Program"), txt(orNone(listOf(distinct(codes), true)))})
-	items = append(items, kv{txt("Deviations"), txt(fmt.Sprintf("%d, of which %d carry a caution", len(t.Deviations), flaggedCount(t)))})
+	items = append(items, kv{txt("Deviations"), txt(fmt.Sprintf("%d, of which %d carry a caution", len(t.Deviations), t.Flagged()))})
 	if len(b.opts.Selection) > 0 {
 		items = append(items, kv{txt("Selection"), txt(strings.Join(b.opts.Selection, " "))})
 	}
@@ -203,16 +203,6 @@ func orNone(s string) string {
 		return "none"
 	}
 	return s
-}
-
-func flaggedCount(t *compare.Table) int {
-	n := 0
-	for _, d := range t.Deviations {
-		if len(d.Cautions) > 0 {
-			n++
-		}
-	}
-	return n
 }
 
 // ---- quantity kinds ----

@@ -140,7 +140,7 @@ func cmdReport(args []string, stdout, stderr io.Writer) int {
 		return fail(stderr, exitFailed, "report", fmt.Errorf("--out %s: %v", *out, err))
 	}
 	fp := report.Fingerprint(tab, chosen, opts)
-	flagged := flaggedDeviations(tab)
+	flagged := tab.Flagged()
 	if *asJSON {
 		if err := printJSON(stdout, map[string]any{
 			"out": *out, "format": fmtName, "bytes": buf.Len(), "fingerprint_sha256": fp,

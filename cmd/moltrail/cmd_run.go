@@ -3,6 +3,7 @@ package main
 import (
 	"fmt"
 	"io"
+	"maps"
 	"os"
 
 	"moltrail/archive"
@@ -99,7 +100,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 	switch {
 	case out.Cached:
 		fmt.Fprintf(stderr, "moltrail run: record %s (computed %s) already holds this input at this code version; nothing was computed (--force computes again)\n", rec.ID[:12], utc(rec.Run.StartUTC))
-		if len(tagMap) > 0 && !sameTags(tagMap, rec.Tags) {
+		if len(tagMap) > 0 && !maps.Equal(tagMap, rec.Tags) {
 			fmt.Fprintln(stderr, "moltrail run: the stored record keeps its own tags; the --tag values given now were not applied (use --force, or `moltrail note`)")
 		}
 	case out.Recomputed != nil:
@@ -125,18 +126,6 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 		return exitFailed
 	}
 	return exitOK
-}
-
-func sameTags(a, b map[string]string) bool {
-	if len(a) != len(b) {
-		return false
-	}
-	for k, v := range a {
-		if b[k] != v {
-			return false
-		}
-	}
-	return true
 }
 
 func joinNames(n []string) string {

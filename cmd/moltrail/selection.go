@@ -144,14 +144,3 @@ func recordsUsed(tab *compare.Table, recs []*archive.Record) []archive.Record {
 	}
 	return out
 }
-
-// flaggedDeviations counts the deviations that carry at least one caution.
-func flaggedDeviations(tab *compare.Table) int {
-	n := 0
-	for _, d := range tab.Deviations {
-		if len(d.Cautions) > 0 {
-			n++
-		}
-	}
-	return n
-}
