@@ -22,13 +22,13 @@ type GridSpec struct {
 	AngularOrder int
 	// Partition: "becke-size-adjusted".
 	Partition string
-	// Pruning: "none" or "zones" (lower angular order close to nuclei).
+	// Pruning: "none", "zones" (lower angular order close to nuclei) or
+	// "zones-outer" (also lower far from them).
 	Pruning string
 	// DensityCut: grid points whose total density is below this are skipped.
 	DensityCut float64
 	// BasisCut: a shell is left out of a batch of points where a bound on
-	// all its functions and gradients is below this, and function values
-	// below it count as zero in the density and potential products.
+	// all its functions and gradients is below this.
 	BasisCut float64
 }
 
@@ -82,9 +82,9 @@ func (s GridSpec) Check() error {
 		return fmt.Errorf("grid %q: partition %q is not known (becke-size-adjusted)", s.Level, s.Partition)
 	}
 	switch s.Pruning {
-	case "none", "zones":
+	case "none", "zones", "zones-outer":
 	default:
-		return fmt.Errorf("grid %q: pruning %q is not known (none, zones)", s.Level, s.Pruning)
+		return fmt.Errorf("grid %q: pruning %q is not known (none, zones, zones-outer)", s.Level, s.Pruning)
 	}
 	if !(s.DensityCut >= 0 && s.DensityCut < 1e-6) {
 		return fmt.Errorf("grid %q: density cutoff %g outside [0, 1e-6)", s.Level, s.DensityCut)
@@ -118,6 +118,16 @@ func prunedOrder(L int, r, R float64) int {
 		return odd(2 * L / 3)
 	}
 	return L
+}
+
+// prunedOrderOuter is the angular order under the "zones-outer" pruning:
+// as "zones" within R/2 of the nucleus, L out to 4R, and ≈ 2L/3 beyond 4R,
+// where the density is small and slowly varying (each at least 7 and odd).
+func prunedOrderOuter(L int, r, R float64) int {
+	if r >= 4*R {
+		return prunedOrder(L, 0.25*R, R) // the ≈ 2L/3 of the R/4–R/2 zone
+	}
+	return prunedOrder(L, r, R)
 }
 
 // NewGrid builds the molecular grid of a molecule.
@@ -167,8 +177,11 @@ func NewGrid(mol *molecule.Molecule, spec GridSpec, threads int) (*Grid, error) 
 		}
 		for k := range rad.r {
 			L := spec.AngularOrder
-			if spec.Pruning == "zones" {
+			switch spec.Pruning {
+			case "zones":
 				L = prunedOrder(L, rad.r[k], radius[i])
+			case "zones-outer":
+				L = prunedOrderOuter(L, rad.r[k], radius[i])
 			}
 			shells = append(shells, shell{i, rad.r[k], rad.w[k], rule(L)})
 		}
