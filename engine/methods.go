@@ -183,8 +183,25 @@ func NewJob(r Request) (*Job, error) {
 	case "energy":
 	case "optimize":
 		o := DefaultOpt
+		if info.Family == "mp2" {
+			// MP2-family gradients are central differences of energies.
+			o.GradientMethod, o.FiniteDiffStepAU = "finite-difference", 1e-3
+		}
 		if r.Opt != nil {
 			o = *r.Opt
+		}
+		switch o.GradientMethod {
+		case "analytic":
+			if info.Family == "mp2" {
+				return nil, fmt.Errorf("analytic gradients are not available for %s; use the finite-difference gradient method", method)
+			}
+			o.FiniteDiffStepAU = 0
+		case "finite-difference":
+			if !(o.FiniteDiffStepAU > 0 && o.FiniteDiffStepAU < 0.1) {
+				return nil, fmt.Errorf("finite-difference step %g bohr must lie between 0 and 0.1", o.FiniteDiffStepAU)
+			}
+		default:
+			return nil, fmt.Errorf("gradient method %q is not known (analytic or finite-difference)", o.GradientMethod)
 		}
 		j.Opt = &o
 	default:
@@ -198,15 +215,14 @@ func NewJob(r Request) (*Job, error) {
 
 // DefaultOpt gives bond lengths converged to about 1e-4 Å.
 var DefaultOpt = OptSettings{
-	MaxForce:         3e-5,
-	RMSForce:         2e-5,
-	MaxStep:          1e-4,
-	EnergyChange:     1e-8,
-	MaxSteps:         100,
-	TrustRadiusBohr:  0.3,
-	Coordinates:      "cartesian",
-	GradientMethod:   "finite-difference",
-	FiniteDiffStepAU: 1e-3,
+	MaxForce:        3e-5,
+	RMSForce:        2e-5,
+	MaxStep:         1e-4,
+	EnergyChange:    1e-8,
+	MaxSteps:        100,
+	TrustRadiusBohr: 0.3,
+	Coordinates:     "cartesian",
+	GradientMethod:  "analytic",
 }
 
 // Validate checks a normalised job for settings that cannot work.
