@@ -74,6 +74,9 @@ func cmdDemo(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintf(stderr, "moltrail demo: --jobs %d is outside 1–256\n", *jobs)
 		return exitUsage
 	}
+	if err := checkOutPath(*out); err != nil {
+		return fail(stderr, exitUsage, "demo", fmt.Errorf("--out %s: %v", *out, err))
+	}
 	name := "study"
 	if *quick {
 		name = "quick"

@@ -105,6 +105,11 @@ func cmdStudy(args []string, stdout, stderr io.Writer) int {
 	if *dry {
 		return studyDryRun(plan, r, *asJSON, stdout, stderr)
 	}
+	if r.reportOut != "" {
+		if err := checkOutPath(r.reportOut); err != nil {
+			return fail(stderr, exitUsage, "study", fmt.Errorf("report %s: %v", r.reportOut, err))
+		}
+	}
 	sum, code := runStudy(plan, r, stderr)
 	if sum == nil {
 		return code
@@ -470,20 +475,7 @@ func studyReport(plan *study.Plan, sum *study.Summary, r studyRun, stderr io.Wri
 	if r.reportOut == "" {
 		return tab, nil, nil
 	}
-	used := map[string]bool{}
-	for _, p := range tab.Picked {
-		used[p.RecordID] = true
-	}
-	for _, d := range tab.Deviations {
-		used[d.RecordID] = true
-	}
-	var chosen []archive.Record
-	for _, rec := range recs {
-		if used[rec.ID] {
-			chosen = append(chosen, *rec)
-			delete(used, rec.ID)
-		}
-	}
+	chosen := recordsUsed(tab, recs)
 	opts := r.reportOps
 	opts.Selection = append(opts.Selection, "study="+plan.Study.Name, "study_file="+plan.Study.Origin, fmt.Sprintf("study_items=%d", len(plan.Items)))
 	if opts.Title == "" {
@@ -496,12 +488,6 @@ func studyReport(plan *study.Plan, sum *study.Summary, r studyRun, stderr io.Wri
 	if err := writeFileAtomic(r.reportOut, buf.Bytes()); err != nil {
 		return nil, nil, fmt.Errorf("%s: %v", r.reportOut, err)
 	}
-	flagged := 0
-	for _, d := range tab.Deviations {
-		if len(d.Cautions) > 0 {
-			flagged++
-		}
-	}
 	return tab, &studyReportInfo{Out: r.reportOut, Bytes: buf.Len(), Fingerprint: report.Fingerprint(tab, chosen, opts),
-		Records: len(chosen), Deviations: len(tab.Deviations), Flagged: flagged, RefSet: tab.RefSet.Name}, nil
+		Records: len(chosen), Deviations: len(tab.Deviations), Flagged: tab.Flagged(), RefSet: tab.RefSet.Name}, nil
 }
