@@ -342,14 +342,25 @@ func checkOrdering(t *testing.T, mse map[string]float64, basis string) {
 	}
 }
 
-func TestDemoQuick(t *testing.T) {
+// TestDemo runs the built-in scenario through the binary: the full one
+// (48 optimisations, two to three minutes on two cores), or the quick one
+// (nine) under -short; then checks the ordering of the bond-length errors
+// from the archive it produced, and that a second run computes nothing.
+func TestDemo(t *testing.T) {
+	args, basisSets := []string{"demo"}, []string{"6-311G**"}
+	if testing.Short() {
+		args = append(args, "--quick")
+	}
 	dir := t.TempDir()
 	arch := filepath.Join(dir, "arch")
 	pdf := filepath.Join(dir, "demo.pdf")
-	r := moltrail(t, nil, "demo", "--quick", "--archive", arch, "--out", pdf)
+	args = append(args, "--archive", arch, "--out", pdf)
+	t0 := time.Now()
+	r := moltrail(t, nil, args...)
 	if r.code != exitOK {
-		t.Fatalf("demo --quick: exit %d\n%s\n%s", r.code, r.stdout, r.stderr)
+		t.Fatalf("%v: exit %d\n%s\n%s", args, r.code, r.stdout, r.stderr)
 	}
+	t.Logf("%v: first run %s", args, time.Since(t0).Round(time.Second))
 	for _, want := range []string{"Halden group", "bond lengths (pm)", "MSE", "SD", "Cautions raised", "HF/6-311G**", "MP2(fc)/6-311G**", "B3LYP/6-311G**", "document: " + pdf} {
 		if !strings.Contains(r.stdout, want) {
 			t.Errorf("terminal summary lacks %q:\n%s", want, r.stdout)
@@ -358,10 +369,13 @@ func TestDemoQuick(t *testing.T) {
 	if b, err := os.ReadFile(pdf); err != nil || !strings.HasPrefix(string(b), "%PDF") {
 		t.Fatalf("no PDF: %v", err)
 	}
-	checkOrdering(t, bondMSE(t, arch), "6-311G**")
+	mse := bondMSE(t, arch)
+	for _, b := range basisSets {
+		checkOrdering(t, mse, b)
+	}
 	// A second run reuses everything.
-	t0 := time.Now()
-	r2 := moltrail(t, nil, "demo", "--quick", "--archive", arch, "--out", pdf, "--json")
+	t0 = time.Now()
+	r2 := moltrail(t, nil, append(args, "--json")...)
 	var o struct {
 		Counts struct{ Total, Done, Reused int } `json:"counts"`
 		Stats  []compare.Stats                   `json:"statistics"`
@@ -372,20 +386,5 @@ func TestDemoQuick(t *testing.T) {
 	if o.Counts.Done != 0 || o.Counts.Reused != o.Counts.Total || len(o.Stats) == 0 {
 		t.Fatalf("second run computed again: %+v", o.Counts)
 	}
-	t.Logf("second quick demo run: %s", time.Since(t0).Round(time.Millisecond))
-}
-
-// TestDemoFull runs the whole built-in scenario (a few minutes on two
-// cores) and checks the ordering at both basis sets' larger one.
-func TestDemoFull(t *testing.T) {
-	if testing.Short() {
-		t.Skip("the full demonstration takes minutes; -short runs the quick one only")
-	}
-	dir := t.TempDir()
-	arch := filepath.Join(dir, "arch")
-	r := moltrail(t, nil, "demo", "--archive", arch, "--out", filepath.Join(dir, "demo.pdf"))
-	if r.code != exitOK {
-		t.Fatalf("demo: exit %d\n%s\n%s", r.code, r.stdout, r.stderr)
-	}
-	checkOrdering(t, bondMSE(t, arch), "6-311G**")
+	t.Logf("second run: %s", time.Since(t0).Round(time.Millisecond))
 }
