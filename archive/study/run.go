@@ -463,7 +463,10 @@ func Run(ctx context.Context, p *Plan, o Options) (*Summary, error) {
 				for i, n := range look {
 					keys[i] = n.key
 				}
+				// Under the store lock: a read-only open would only wait for our own writer.
+				storeMu.Lock()
 				found, err := lookup(o.Archive, o.Wait, keys)
+				storeMu.Unlock()
 				if err != nil && !planned {
 					return nil, err
 				}
