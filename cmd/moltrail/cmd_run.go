@@ -1,10 +1,13 @@
 package main
 
 import (
+	"flag"
 	"fmt"
 	"io"
 	"maps"
+	"math"
 	"os"
+	"strings"
 
 	"moltrail/archive"
 	"moltrail/engine"
@@ -23,7 +26,7 @@ func engineCompute(job *engine.Job, threads int, progress io.Writer) (*engine.Re
 }
 
 func cmdRun(args []string, stdout, stderr io.Writer) int {
-	fs := newFlags("run", stderr, "[flags] MOLECULE.xyz")
+	fs := newFlags("run", stderr, "[flags] MOLECULE.xyz  |  [flags] --geometry-from ID")
 	af := addArchiveFlags(fs)
 	method := fs.String("method", "hf", "the `METHOD`: "+joinNames(engine.MethodNames()))
 	basisName := fs.String("basis", "cc-pvdz", "basis set `NAME` or alias (moltrail basis lists them), or a basis JSON file")
@@ -49,12 +52,20 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 	shift := fs.Float64("level-shift", engine.DefaultSCF.LevelShiftHartree, "SCF: virtual-orbital level shift (hartree)")
 	grid := fs.String("grid", "", "DFT grid `LEVEL`: "+joinNames(dft.LevelNames())+" (default: "+dft.DefaultLevel+")")
 	origin := fs.String("origin", "centre-of-mass", "multipole `ORIGIN`: centre-of-mass, centre-of-charge or coordinate-origin")
+	geomFrom := fs.String("geometry-from", "", "start from the final geometry of the archived record `ID` (unique prefix) instead of an XYZ file; recorded in the lineage")
+	maxForce := fs.Float64("max-force", engine.DefaultOpt.MaxForce, "optimisation: largest force limit (hartree/bohr); with the RMS force, step and energy-change limits")
+	maxSteps := fs.Int("max-steps", engine.DefaultOpt.MaxSteps, "optimisation: step limit")
+	gradMethod := fs.String("gradient", "", "optimisation gradients: analytic or finite-difference (default: analytic for HF and DFT, finite-difference for the MP2 family)")
 	pos, code, ok := parseFlags(fs, args)
 	if !ok {
 		return code
 	}
-	if len(pos) != 1 {
-		fmt.Fprintln(stderr, "moltrail run: give exactly one molecule file (XYZ)")
+	if *geomFrom == "" && len(pos) != 1 {
+		fmt.Fprintln(stderr, "moltrail run: give exactly one molecule file (XYZ), or --geometry-from ID")
+		return exitUsage
+	}
+	if *geomFrom != "" && len(pos) != 0 {
+		fmt.Fprintln(stderr, "moltrail run: give either a molecule file or --geometry-from ID, not both")
 		return exitUsage
 	}
 	if *cart && *sph {
@@ -68,19 +79,54 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 	if *threads < 0 {
 		return fail(stderr, exitUsage, "run", fmt.Errorf("--threads %d: give 0 (all cores) or more", *threads))
 	}
-	m, err := readXYZ(pos[0])
-	if err != nil {
-		return fail(stderr, exitUsage, "run", err)
+	set := map[string]bool{}
+	fs.Visit(func(f *flag.Flag) { set[f.Name] = true })
+	var m *molecule.Molecule
+	var lineage []archive.Link
+	source := ""
+	if *geomFrom != "" {
+		var id string
+		m, id, code, err = geometryFromRecord(af, *geomFrom, stderr)
+		if err != nil {
+			return fail(stderr, code, "run", err)
+		}
+		lineage = []archive.Link{{Relation: archive.GeometryFrom, ID: id}}
+		source = "geometry of record " + id[:12]
+	} else {
+		m, err = readXYZ(pos[0])
+		if err != nil {
+			return fail(stderr, exitUsage, "run", err)
+		}
+		source = pos[0]
 	}
 	if *name != "" {
 		m.Name = *name
 	}
-	m.Charge, m.Multiplicity = *charge, *mult
+	if *geomFrom == "" || set["charge"] {
+		m.Charge = *charge
+	}
+	if *geomFrom == "" || set["multiplicity"] {
+		m.Multiplicity = *mult
+	}
 	scf := engine.DefaultSCF
 	scf.EnergyTolHartree, scf.DensityTol, scf.GradientTol = *eTol, *dTol, *gTol
 	scf.MaxIter, scf.Guess, scf.DIISSize, scf.SchwarzThreshold, scf.LevelShiftHartree = *maxIter, *guess, *diis, *schwarz, *shift
 	req := engine.Request{Molecule: m, Method: *method, Basis: *basisName, Task: *task, FrozenCore: *frozen,
 		SCF: &scf, Grid: *grid, Origin: &engine.OriginSpec{Kind: *origin}}
+	if set["max-force"] || set["max-steps"] || set["gradient"] {
+		o := engine.DefaultOpt
+		o.MaxForce, o.MaxSteps = *maxForce, *maxSteps
+		o.RMSForce = math.Min(o.RMSForce, *maxForce)
+		if *gradMethod != "" {
+			o.GradientMethod = *gradMethod
+		} else if info, ok := engine.Methods[strings.ToLower(*method)]; ok && info.Family == "mp2" {
+			o.GradientMethod = "finite-difference"
+		}
+		if o.GradientMethod == "finite-difference" {
+			o.FiniteDiffStepAU = 1e-3
+		}
+		req.Opt = &o
+	}
 	if *cart {
 		req.Angular = basis.Cartesian
 	}
@@ -89,9 +135,9 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 	}
 	job, err := engine.NewJob(req)
 	if err != nil {
-		return fail(stderr, exitUsage, "run", fmt.Errorf("%s: %v", pos[0], err))
+		return fail(stderr, exitUsage, "run", fmt.Errorf("%s: %v", source, err))
 	}
-	out, err := archive.RunAndStore(af.path(), archive.RunRequest{Job: job, Tags: tagMap, Force: *force,
+	out, err := archive.RunAndStore(af.path(), archive.RunRequest{Job: job, Tags: tagMap, Force: *force, Lineage: lineage,
 		Threads: *threads, Wait: af.waitOrNone(), Log: stderr}, engineCompute)
 	if err != nil {
 		return fail(stderr, archiveErrCode(err), "run", err)
@@ -151,4 +197,37 @@ func readXYZ(path string) (*molecule.Molecule, error) {
 		return nil, fmt.Errorf("molecule file %s is a directory", path)
 	}
 	return molecule.ParseXYZ(f, path)
+}
+
+// geometryFromRecord reads the final geometry of an archived record as a
+// molecule (name, charge and multiplicity from the record's input).
+func geometryFromRecord(af *archiveFlags, prefix string, stderr io.Writer) (*molecule.Molecule, string, int, error) {
+	st, code, err := af.open(true, stderr)
+	if err != nil {
+		return nil, "", code, err
+	}
+	defer st.Close()
+	id, err := st.Resolve(prefix)
+	if err != nil {
+		return nil, "", exitUsage, fmt.Errorf("--geometry-from: %v", err)
+	}
+	rec, _, err := st.Get(id)
+	if err != nil {
+		return nil, "", exitUsage, fmt.Errorf("--geometry-from %s: %v", prefix, err)
+	}
+	if rec.Status != engine.StatusConverged {
+		return nil, "", exitUsage, fmt.Errorf("--geometry-from %s: record %s has status %s, so its geometry is not a final one", prefix, id[:12], rec.Status)
+	}
+	if len(rec.Results.GeometryAngstrom) == 0 {
+		return nil, "", exitUsage, fmt.Errorf("--geometry-from %s: record %s holds no geometry", prefix, id[:12])
+	}
+	m := &molecule.Molecule{Name: rec.Input.Molecule.Name, Charge: rec.Input.Molecule.Charge, Multiplicity: rec.Input.Molecule.Multiplicity}
+	for i, g := range rec.Results.GeometryAngstrom {
+		a, err := molecule.NewAtom(g.Symbol, g.XYZ[0]*molecule.AngstromBohr, g.XYZ[1]*molecule.AngstromBohr, g.XYZ[2]*molecule.AngstromBohr)
+		if err != nil {
+			return nil, "", exitUsage, fmt.Errorf("--geometry-from %s: atom %d: %v", prefix, i+1, err)
+		}
+		m.Atoms = append(m.Atoms, a)
+	}
+	return m, id, exitOK, nil
 }
