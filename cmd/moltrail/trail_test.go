@@ -12,6 +12,7 @@ import (
 )
 
 func TestReproduceTraceDiff(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	arch := filepath.Join(dir, "arch")
 	water := writeFile(t, dir, "water.xyz", waterXYZ)
