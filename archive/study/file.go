@@ -163,6 +163,8 @@ type Level struct {
 	// Request is the engine request without molecule and task.
 	Request engine.Request
 	family  string
+	// opt overrides the engine's optimisation defaults for the method.
+	opt *OptEntry
 }
 
 // Molecules returns the study's molecules in file order.
@@ -418,11 +420,7 @@ func (e LevelEntry) level(method, basisName string, single bool) (*Level, error)
 		e.SCF.apply(&sc)
 		r.SCF = &sc
 	}
-	if e.Optimization != nil {
-		o := engine.DefaultOpt
-		e.Optimization.apply(&o)
-		r.Opt = &o
-	}
+
 	label := mname
 	if r.FrozenCore {
 		label += "(fc)"
@@ -435,7 +433,7 @@ func (e LevelEntry) level(method, basisName string, single bool) (*Level, error)
 		// A named level is shown by its name: several may share method and basis.
 		label = strings.TrimSpace(id) + " (" + label + ")"
 	}
-	return &Level{ID: strings.TrimSpace(id), Label: label, Request: r, family: info.Family}, nil
+	return &Level{ID: strings.TrimSpace(id), Label: label, Request: r, family: info.Family, opt: e.Optimization}, nil
 }
 
 func (c *SCFEntry) apply(s *engine.SCFSettings) {

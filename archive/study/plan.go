@@ -8,6 +8,10 @@ import (
 	"moltrail/engine/molecule"
 )
 
+// defaultFiniteDiffStepBohr is the displacement used when a study asks
+// for finite-difference gradients without giving the step.
+const defaultFiniteDiffStepBohr = 1e-3
+
 // Item is one calculation of a study: a molecule at a level with a task,
 // optionally starting from the geometry another item optimised.
 type Item struct {
@@ -46,6 +50,16 @@ func (it *Item) Job(geom *molecule.Molecule) (*engine.Job, error) {
 	r.Molecule = geom
 	r.Task = it.Task
 	j, err := engine.NewJob(r)
+	if err == nil && it.Task == "optimize" && it.Level.opt != nil {
+		// The study's criteria change the engine's defaults for this method.
+		o := *j.Opt
+		it.Level.opt.apply(&o)
+		if o.GradientMethod == "finite-difference" && o.FiniteDiffStepAU == 0 {
+			o.FiniteDiffStepAU = defaultFiniteDiffStepBohr
+		}
+		r.Opt = &o
+		j, err = engine.NewJob(r)
+	}
 	if err != nil {
 		return nil, fmt.Errorf("%s: %v", it.Name(), err)
 	}

@@ -203,6 +203,16 @@ func TestLevelSettingsReachTheJob(t *testing.T) {
 			if j.SCF.DensityTol != engine.DefaultSCF.DensityTol {
 				t.Errorf("%s: an unset SCF field lost its default", it.Level.ID)
 			}
+			// Unset optimisation fields keep the engine's default for the method.
+			r := it.Level.Request
+			r.Molecule, r.Task = it.Molecule.Mol, "optimize"
+			base, err := engine.NewJob(r)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if j.Opt.GradientMethod != base.Opt.GradientMethod || j.Opt.FiniteDiffStepAU != base.Opt.FiniteDiffStepAU {
+				t.Errorf("%s: gradient %s/%g, the engine's default is %s/%g", it.Level.ID, j.Opt.GradientMethod, j.Opt.FiniteDiffStepAU, base.Opt.GradientMethod, base.Opt.FiniteDiffStepAU)
+			}
 		case "dft":
 			if j.Grid == nil || j.Grid.Level != "coarse" {
 				t.Errorf("dft: grid %+v", j.Grid)
