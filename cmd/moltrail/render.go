@@ -157,6 +157,23 @@ func writeRecord(w io.Writer, r *archive.Record, notes []archive.Note) {
 	for _, a := range res.GeometryAngstrom {
 		fmt.Fprintf(w, "    %-2s %15s %15s %15s\n", a.Symbol, fixed(a.XYZ[0], 10), fixed(a.XYZ[1], 10), fixed(a.XYZ[2], 10))
 	}
+	if st := res.Structure; st != nil && len(st.Bonds)+len(st.Angles)+len(st.Dihedrals) > 0 {
+		fmt.Fprintln(w, "  structure (bonds from covalent radii)")
+		for _, b := range st.Bonds {
+			fmt.Fprintf(w, "    %-28s %12.6f Å\n", b.Label, b.Angstrom)
+		}
+		for _, a := range st.Angles {
+			fmt.Fprintf(w, "    %-28s %12.4f°\n", a.Label, a.Degrees)
+		}
+		for _, d := range st.Dihedrals {
+			fmt.Fprintf(w, "    %-28s %12.4f°\n", d.Label, d.Degrees)
+		}
+	}
+	if tr := res.Trajectory; len(tr) > 0 {
+		last := tr[len(tr)-1]
+		kv("optimisation", "%d geometries, last max force %.2e hartree/bohr, energy change over the run %.6f hartree",
+			len(tr), last.MaxForce, last.EnergyHartree-tr[0].EnergyHartree)
+	}
 	for _, n := range res.Notes {
 		fmt.Fprintf(w, "  note: %s\n", n)
 	}
