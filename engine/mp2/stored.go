@@ -33,6 +33,9 @@ const minSlabBytes = int64(16) << 20
 // slabTile is the number of ket pairs per matrix-product work item.
 const slabTile = 16
 
+// blockRun is the number of consecutive stored blocks per scatter work item.
+const blockRun = 512
+
 // storedPlan is the slab layout of the in-core path.
 type storedPlan struct {
 	st *integral.Stored
@@ -120,55 +123,58 @@ func (p *problem) halfTransformStored(sp *storedPlan, rho, j0, j1, pStart, nP in
 			}
 		}
 		x = grow(x, nls*n*n) // X[slot][μ][ν]
-		p.parallel(st.NumBlocks(), func(w, k int, scr *scratch) {
-			P, Q := st.Block(k)
-			bp, bq := base[P], base[Q]
-			if bp < 0 && bq < 0 {
-				return
-			}
-			if P == Q {
-				bp = -1 // (P|P) lists both orientations: the ket side covers it
-			}
-			if cap(scr.m) < sp.maxNB {
-				scr.m = make([]float64, sp.maxNB)
-			}
-			m := scr.m
-			st.Unpack(k, m)
-			bra, ket := st.Class(P), st.Class(Q)
-			rb, rk := sp.rank[P], sp.rank[Q]
-			nk := len(ket.Mu)
-			if bq >= 0 {
-				for g, r := range rk {
-					if r < 0 {
-						continue
-					}
-					s := bq + int(r)
-					for f, rf := range rb {
-						v := m[f*nk+g]
-						if rf < 0 || v == 0 {
+		nblk := st.NumBlocks()
+		p.parallel((nblk+blockRun-1)/blockRun, func(w, item int, scr *scratch) {
+			for k := item * blockRun; k < min((item+1)*blockRun, nblk); k++ {
+				P, Q := st.Block(k)
+				bp, bq := base[P], base[Q]
+				if bp < 0 && bq < 0 {
+					continue
+				}
+				if P == Q {
+					bp = -1 // (P|P) lists both orientations: the ket side covers it
+				}
+				if cap(scr.m) < sp.maxNB {
+					scr.m = make([]float64, sp.maxNB)
+				}
+				m := scr.m
+				st.Unpack(k, m)
+				bra, ket := st.Class(P), st.Class(Q)
+				rb, rk := sp.rank[P], sp.rank[Q]
+				nk := len(ket.Mu)
+				if bq >= 0 {
+					for g, r := range rk {
+						if r < 0 {
 							continue
 						}
-						mu, nu := int(bra.Mu[f]), int(bra.Nu[f])
-						x[(s*n+mu)*n+nu] = v
-						x[(s*n+nu)*n+mu] = v
+						s := bq + int(r)
+						for f, rf := range rb {
+							v := m[f*nk+g]
+							if rf < 0 || v == 0 {
+								continue
+							}
+							mu, nu := int(bra.Mu[f]), int(bra.Nu[f])
+							x[(s*n+mu)*n+nu] = v
+							x[(s*n+nu)*n+mu] = v
+						}
 					}
 				}
-			}
-			if bp >= 0 {
-				for f, r := range rb {
-					if r < 0 {
-						continue
-					}
-					s := bp + int(r)
-					row := m[f*nk : (f+1)*nk]
-					for g, rg := range rk {
-						v := row[g]
-						if rg < 0 || v == 0 {
+				if bp >= 0 {
+					for f, r := range rb {
+						if r < 0 {
 							continue
 						}
-						la, si := int(ket.Mu[g]), int(ket.Nu[g])
-						x[(s*n+la)*n+si] = v
-						x[(s*n+si)*n+la] = v
+						s := bp + int(r)
+						row := m[f*nk : (f+1)*nk]
+						for g, rg := range rk {
+							v := row[g]
+							if rg < 0 || v == 0 {
+								continue
+							}
+							la, si := int(ket.Mu[g]), int(ket.Nu[g])
+							x[(s*n+la)*n+si] = v
+							x[(s*n+si)*n+la] = v
+						}
 					}
 				}
 			}
