@@ -90,7 +90,11 @@ func cmdDemo(args []string, stdout, stderr io.Writer) int {
 		return fail(stderr, exitFailed, "demo", err)
 	}
 	if !*asJSON {
-		fmt.Fprintf(stdout, "%s\n\n", demoStory)
+		fmt.Fprintf(stdout, "%s\n", demoStory)
+		if *quick {
+			fmt.Fprintln(stdout, "(Quick version: three diatomics, the triple-zeta basis only.)")
+		}
+		fmt.Fprintln(stdout)
 	}
 	r := studyRun{cmd: "demo", archive: af.path(), wait: af.waitOrNone(), jobs: *jobs, refs: studyRefs(st), reportOut: *out}
 	if st.Report != nil {
