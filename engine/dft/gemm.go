@@ -11,8 +11,10 @@ package dft
 // callers pad their arrays with zeros); the register block is 4 × 8. On
 // amd64 with AVX2 and FMA an assembly kernel computes each block, elsewhere
 // a Go loop of the same shape. Each element of C is a sum over k in
-// increasing order computed by one call, so results do not depend on how
-// callers divide work between threads.
+// increasing order with one fused multiply–add per term (a plain multiply
+// and add in the Go loop), whichever kernel computes it, so results do not
+// depend on how callers divide work between threads. Where AVX-512 is
+// there, pairs of neighbouring column blocks go to a 4 × 16 kernel.
 
 const (
 	blockRows = 4
@@ -42,7 +44,21 @@ func gemmCM(m, n, k int, a []float64, lda int, b []float64, ldb int, c []float64
 	_ = a[(k-1)*lda+m-1]
 	_ = b[(k-1)*ldb+n-1]
 	_ = c[(m-1)*ldc+n-1]
-	for j := 0; j < n; j += blockCols {
+	j := 0
+	for ; j+2*blockCols <= n; j += 2 * blockCols {
+		for i := 0; i < m; i += blockRows {
+			switch {
+			case upper && j+2*blockCols <= i:
+			case upper && j+blockCols <= i:
+				kernel4x8(k, a[i:], lda, b[j+blockCols:], ldb, c[i*ldc+j+blockCols:], ldc)
+			case kernel4x16(k, a[i:], lda, b[j:], ldb, c[i*ldc+j:], ldc):
+			default:
+				kernel4x8(k, a[i:], lda, b[j:], ldb, c[i*ldc+j:], ldc)
+				kernel4x8(k, a[i:], lda, b[j+blockCols:], ldb, c[i*ldc+j+blockCols:], ldc)
+			}
+		}
+	}
+	for ; j < n; j += blockCols {
 		for i := 0; i < m; i += blockRows {
 			if upper && j+blockCols <= i {
 				continue

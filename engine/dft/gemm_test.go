@@ -8,7 +8,7 @@ import (
 // The block product against a plain triple loop, for both kernels, full
 // and upper-triangle forms, several shapes and strides.
 func TestGemmCM(t *testing.T) {
-	for _, sh := range [][6]int{{4, 8, 1, 4, 8, 8}, {8, 16, 5, 9, 17, 24}, {12, 24, 37, 12, 24, 24}, {32, 40, 128, 36, 48, 40}} {
+	for _, sh := range [][6]int{{4, 8, 1, 4, 8, 8}, {8, 16, 5, 9, 17, 24}, {12, 24, 37, 12, 24, 24}, {32, 40, 128, 36, 48, 40}, {40, 48, 19, 41, 50, 56}} {
 		m, n, k, lda, ldb, ldc := sh[0], sh[1], sh[2], sh[3], sh[4], sh[5]
 		a := make([]float64, k*lda)
 		b := make([]float64, k*ldb)
@@ -18,19 +18,34 @@ func TestGemmCM(t *testing.T) {
 		for i := range b {
 			b[i] = math.Cos(0.21*float64(i) - 0.3)
 		}
-		for _, kern := range []bool{false, true} {
-			if kern && !useFMA {
+		// kernels: 0 Go loop, 1 AVX2/FMA 4×8 only, 2 with the AVX-512 4×16
+		for kern := 0; kern < 3; kern++ {
+			if kern == 1 && !useFMA || kern == 2 && !useAVX512 {
 				continue
 			}
 			for _, upper := range []bool{false, true} {
-				saved := useFMA
-				useFMA = kern
+				savedF, savedW := useFMA, useAVX512
+				useFMA, useAVX512 = kern >= 1, kern == 2
 				c := make([]float64, m*ldc)
 				for i := range c {
 					c[i] = 99
 				}
 				gemmCM(m, n, k, a, lda, b, ldb, c, ldc, upper)
-				useFMA = saved
+				if kern == 2 {
+					// the wide kernel must give the 4×8 kernel's bits
+					useAVX512 = false
+					c8 := make([]float64, m*ldc)
+					for i := range c8 {
+						c8[i] = 99
+					}
+					gemmCM(m, n, k, a, lda, b, ldb, c8, ldc, upper)
+					for i := range c {
+						if c[i] != c8[i] {
+							t.Fatalf("m%d n%d k%d upper %v: 4×16 and 4×8 kernels differ at %d: %v vs %v", m, n, k, upper, i, c[i], c8[i])
+						}
+					}
+				}
+				useFMA, useAVX512 = savedF, savedW
 				for i := 0; i < m; i++ {
 					for j := 0; j < n; j++ {
 						want := 0.0
@@ -42,7 +57,7 @@ func TestGemmCM(t *testing.T) {
 							want = 99 // block below the diagonal left alone
 						}
 						if math.Abs(got-want) > 1e-13*float64(k) {
-							t.Fatalf("m%d n%d k%d fma %v upper %v: C[%d,%d] = %g, want %g", m, n, k, kern, upper, i, j, got, want)
+							t.Fatalf("m%d n%d k%d kernel %d upper %v: C[%d,%d] = %g, want %g", m, n, k, kern, upper, i, j, got, want)
 						}
 					}
 				}
