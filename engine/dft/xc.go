@@ -40,8 +40,7 @@ type XC struct {
 var basisCacheBytes = 1 << 30
 
 type batchCache struct {
-	phi    []float64
-	grad   [3][]float64
+	batchValues
 	filled bool
 }
 
@@ -82,9 +81,9 @@ func NewXC(mol *molecule.Molecule, mb *basis.Molecular, functionalDef string, sp
 		}
 	}
 	x.cache = make([]batchCache, len(g.batches))
-	arrays := 1
+	arrays := 2 // Φ and its transpose
 	if fn.gga {
-		arrays = 4
+		arrays = 5
 	}
 	used := 0
 	for b := range g.batches {
@@ -279,40 +278,51 @@ func (x *XC) newWork() *work {
 	return w
 }
 
-// basisValues returns the batch's basis values (and gradients for GGAs)
-// in the padded layout: from the cache when the batch has a slot there
-// (filled on first use), computed into the worker's arrays otherwise.
-func (x *XC) basisValues(b int, w *work) (phi []float64, grad [3][]float64) {
-	if c := &x.cache[b]; c.phi != nil {
-		if c.filled {
-			return c.phi, c.grad
-		}
-		_, ld, _, npad := x.batchDims(b)
-		c.phi = make([]float64, npad*ld)
+// batchValues are a batch's basis values in the padded layout: Φ and ∇Φ
+// row-major (npad × ld), and Φ column-major (nl × npad) for the density
+// product.
+type batchValues struct {
+	phi, phiT []float64
+	grad      [3][]float64
+}
+
+// basisValues returns the batch's basis values: from the cache when the
+// batch has a slot there (filled on first use), computed into the worker's
+// arrays otherwise.
+func (x *XC) basisValues(b int, w *work) batchValues {
+	nl, ld, _, npad := x.batchDims(b)
+	c := &x.cache[b]
+	if c.phi != nil && c.filled {
+		return c.batchValues
+	}
+	var v batchValues
+	if c.phi != nil {
+		v.phi, v.phiT = make([]float64, npad*ld), make([]float64, nl*npad)
 		if x.fn.gga {
 			for d := 0; d < 3; d++ {
-				c.grad[d] = make([]float64, npad*ld)
+				v.grad[d] = make([]float64, npad*ld)
 			}
 		}
-		x.evalBatch(b, c.phi, c.grad, w)
-		c.filled = true
-		return c.phi, c.grad
-	}
-	_, ld, _, npad := x.batchDims(b)
-	phi = w.phi[:npad*ld]
-	if x.fn.gga {
-		for d := 0; d < 3; d++ {
-			grad[d] = w.grad[d][:npad*ld]
+	} else {
+		v.phi, v.phiT = w.phi[:npad*ld], w.phiT[:nl*npad]
+		if x.fn.gga {
+			for d := 0; d < 3; d++ {
+				v.grad[d] = w.grad[d][:npad*ld]
+			}
 		}
 	}
-	x.evalBatch(b, phi, grad, w)
-	return phi, grad
+	x.evalBatch(b, v, w)
+	if c.phi != nil {
+		c.batchValues, c.filled = v, true
+	}
+	return v
 }
 
 // evalBatch evaluates the batch's functions into padded arrays.
-func (x *XC) evalBatch(b int, phi []float64, grad [3][]float64, w *work) {
+func (x *XC) evalBatch(b int, v batchValues, w *work) {
 	bt := x.grid.batches[b]
 	nl, ld, np, npad := x.batchDims(b)
+	phi, grad := v.phi, v.grad
 	evalShells(x.shells, x.aexps, x.blist[b], x.grid.X[bt.start:bt.end], x.grid.Y[bt.start:bt.end], x.grid.Z[bt.start:bt.end], ld, phi, grad, w.ew)
 	clearPad := func(a []float64) {
 		if a == nil {
@@ -332,10 +342,18 @@ func (x *XC) evalBatch(b int, phi []float64, grad [3][]float64, w *work) {
 	for d := 0; d < 3; d++ {
 		clearPad(grad[d])
 	}
+	pt := v.phiT[:nl*npad]
+	for p := 0; p < npad; p++ {
+		row := phi[p*ld : p*ld+nl]
+		for k, f := range row {
+			pt[k*npad+p] = f
+		}
+	}
 }
 
 // density computes X = Φ·D_loc and ρ_p = Σ X∘Φ, ∇ρ_p = 2 Σ X∘∇Φ.
-func (x *XC) density(b int, d []float64, phi []float64, grad [3][]float64, w *work, rho []float64, rstride int, grho [3][]float64) {
+func (x *XC) density(b int, d []float64, bv batchValues, w *work, rho []float64, rstride int, grho [3][]float64) {
+	phi, grad := bv.phi, bv.grad
 	n := x.nbf
 	funcs := x.bfuncs[b]
 	nl, ld, np, npad := x.batchDims(b)
@@ -350,19 +368,12 @@ func (x *XC) density(b int, d []float64, phi []float64, grad [3][]float64, w *wo
 			row[j] = 0
 		}
 	}
-	// Φ column-major for the block product
-	pt := w.phiT[:nl*npad]
-	for p := 0; p < npad; p++ {
-		row := phi[p*ld : p*ld+nl]
-		for k, v := range row {
-			pt[k*npad+p] = v
-		}
-	}
 	X := w.x[:npad*ld]
-	gemmCM(npad, ld, nl, pt, npad, dl, ld, X, ld, false)
+	gemmCM(npad, ld, nl, bv.phiT, npad, dl, ld, X, ld, false)
 	for p := 0; p < np; p++ {
 		row := X[p*ld : p*ld+nl]
 		ph := phi[p*ld : p*ld+nl]
+		ph = ph[:len(row)]
 		s := 0.0
 		for k, v := range row {
 			s += v * ph[k]
@@ -372,6 +383,7 @@ func (x *XC) density(b int, d []float64, phi []float64, grad [3][]float64, w *wo
 			gx := grad[0][p*ld : p*ld+nl]
 			gy := grad[1][p*ld : p*ld+nl]
 			gz := grad[2][p*ld : p*ld+nl]
+			gx, gy, gz = gx[:len(row)], gy[:len(row)], gz[:len(row)]
 			var tx, ty, tz float64
 			for k, v := range row {
 				tx += v * gx[k]
@@ -385,14 +397,16 @@ func (x *XC) density(b int, d []float64, phi []float64, grad [3][]float64, w *wo
 
 // potential forms Z_pk = w_p (½ vρ_p φ_pk + G_p·∇φ_pk) and adds
 // Φᵀ Z + Zᵀ Φ to the upper triangle of v.
-func (x *XC) potential(b int, phi []float64, grad [3][]float64, wts, vr []float64, vrStride int, G [3][]float64, w *work, v []float64) {
+func (x *XC) potential(b int, bv batchValues, wts, vr []float64, vrStride int, G [3][]float64, w *work, v []float64) {
 	funcs := x.bfuncs[b]
 	nl, ld, np, _ := x.batchDims(b)
+	phi, grad := bv.phi, bv.grad
 	Z := w.z[:np*ld]
 	for p := 0; p < np; p++ {
 		a := 0.5 * wts[p] * vr[p*vrStride]
 		z := Z[p*ld : (p+1)*ld]
 		ph := phi[p*ld : (p+1)*ld]
+		ph = ph[:len(z)]
 		if G[0] == nil {
 			for k := range z {
 				z[k] = a * ph[k]
@@ -403,6 +417,7 @@ func (x *XC) potential(b int, phi []float64, grad [3][]float64, wts, vr []float6
 		px := grad[0][p*ld : (p+1)*ld]
 		py := grad[1][p*ld : (p+1)*ld]
 		pz := grad[2][p*ld : (p+1)*ld]
+		px, py, pz = px[:len(z)], py[:len(z)], pz[:len(z)]
 		for k := range z {
 			z[k] = a*ph[k] + gx*px[k] + gy*py[k] + gz*pz[k]
 		}
@@ -439,10 +454,10 @@ func (x *XC) batch(b int, da, db []float64, acc *accum, w *work) error {
 	np := bt.end - bt.start
 	W := x.grid.W[bt.start:bt.end]
 	gga := x.fn.gga
-	phi, grad := x.basisValues(b, w)
+	bv := x.basisValues(b, w)
 	cut := x.grid.Spec.DensityCut
 	if db == nil {
-		x.density(b, da, phi, grad, w, w.rho, 1, w.gra)
+		x.density(b, da, bv, w, w.rho, 1, w.gra)
 		for p := 0; p < np; p++ {
 			acc.n += W[p] * w.rho[p]
 			if gga {
@@ -467,11 +482,11 @@ func (x *XC) batch(b int, da, db []float64, acc *accum, w *work) error {
 			}
 			G = w.gra
 		}
-		x.potential(b, phi, grad, W, w.vrho, 1, G, w, acc.va)
+		x.potential(b, bv, W, w.vrho, 1, G, w, acc.va)
 		return nil
 	}
-	x.density(b, da, phi, grad, w, w.rho, 2, w.gra)
-	x.density(b, db, phi, grad, w, w.rho[1:], 2, w.grb)
+	x.density(b, da, bv, w, w.rho, 2, w.gra)
+	x.density(b, db, bv, w, w.rho[1:], 2, w.grb)
 	for p := 0; p < np; p++ {
 		acc.n += W[p] * (w.rho[2*p] + w.rho[2*p+1])
 		if gga {
@@ -501,7 +516,7 @@ func (x *XC) batch(b int, da, db []float64, acc *accum, w *work) error {
 		}
 		Ga, Gb = w.gra, w.grb
 	}
-	x.potential(b, phi, grad, W, w.vrho, 2, Ga, w, acc.va)
-	x.potential(b, phi, grad, W, w.vrho[1:], 2, Gb, w, acc.vb)
+	x.potential(b, bv, W, w.vrho, 2, Ga, w, acc.va)
+	x.potential(b, bv, W, w.vrho[1:], 2, Gb, w, acc.vb)
 	return nil
 }
