@@ -2,6 +2,7 @@ package engine
 
 import (
 	"fmt"
+	"math"
 	"sort"
 	"strings"
 
@@ -254,6 +255,8 @@ func (j *Job) Validate() error {
 		return fmt.Errorf("scf.guess %q is not known (sad or core)", s.Guess)
 	case s.DIISSize < 0:
 		return fmt.Errorf("scf.diis_size must not be negative")
+	case s.LevelShiftHartree < 0 || s.LevelShiftHartree > 10 || math.IsNaN(s.LevelShiftHartree):
+		return fmt.Errorf("scf.level_shift_hartree %g is outside 0–10 hartree", s.LevelShiftHartree)
 	case s.SchwarzThreshold < 0 || s.SchwarzThreshold > 1e-6:
 		return fmt.Errorf("scf.schwarz_threshold %g is outside 0–1e-6", s.SchwarzThreshold)
 	}

@@ -16,7 +16,9 @@ import (
 	"embed"
 	"encoding/hex"
 	"encoding/json"
+	"errors"
 	"fmt"
+	"io"
 	"math"
 	"os"
 	"sort"
@@ -158,6 +160,16 @@ func parse(b []byte, file string) (*Set, error) {
 	dec := json.NewDecoder(strings.NewReader(string(b)))
 	dec.DisallowUnknownFields()
 	if err := dec.Decode(&s); err != nil {
+		var te *json.UnmarshalTypeError
+		var se *json.SyntaxError
+		switch {
+		case errors.As(err, &te):
+			return nil, fmt.Errorf("basis file %s: field %q holds a JSON %s where the basis layout needs %s", file, te.Field, te.Value, jsonKind(te.Type.Kind().String()))
+		case errors.As(err, &se):
+			return nil, fmt.Errorf("basis file %s: not valid JSON at byte %d: %v", file, se.Offset, err)
+		case errors.Is(err, io.ErrUnexpectedEOF) || errors.Is(err, io.EOF):
+			return nil, fmt.Errorf("basis file %s: the JSON is cut short", file)
+		}
 		return nil, fmt.Errorf("basis file %s: not a basis set in moltrail's JSON layout: %v", file, err)
 	}
 	if s.Name == "" {
@@ -244,4 +256,21 @@ func RawBytes(s *Set) ([]byte, error) {
 		return nil, fmt.Errorf("basis %q: original bytes not kept", s.Name)
 	}
 	return s.raw, nil
+}
+
+// jsonKind names a Go kind the way a JSON author thinks of it.
+func jsonKind(k string) string {
+	switch k {
+	case "struct", "map":
+		return "an object"
+	case "slice", "array":
+		return "an array"
+	case "string":
+		return "a string"
+	case "int", "int64", "float64":
+		return "a number"
+	case "bool":
+		return "true or false"
+	}
+	return k
 }

@@ -91,7 +91,7 @@ func TestUserFile(t *testing.T) {
 		{`{"name":"x","angular":"cartesian","elements":{"Xq":[]}}`, "elements.Xq"},
 		{`{"name":"x","angular":"cartesian","elements":{"H":[{"l":0,"exponents":[-1],"coefficients":[1]}]}}`, "elements.H[0]: exponent 0"},
 		{`{"name":"x","angular":"cartesian","elements":{"H":[{"l":7,"exponents":[1],"coefficients":[1]}]}}`, "l=7"},
-		{`{"name":"x",`, "not a basis set"},
+		{`{"name":"x",`, "cut short"},
 	}
 	for i, b := range bad {
 		q := filepath.Join(dir, "bad.json")
@@ -99,6 +99,23 @@ func TestUserFile(t *testing.T) {
 		_, err := Load(q)
 		if err == nil || !strings.Contains(err.Error(), b.want) {
 			t.Errorf("bad %d: %v, want %q", i, err, b.want)
+		}
+	}
+}
+
+func TestUserFileTypeErrors(t *testing.T) {
+	dir := t.TempDir()
+	cases := []struct{ text, want string }{
+		{`5`, "holds a JSON number where the basis layout needs an object"},
+		{`{"name":"x","angular":"cartesian","elements":{"H":[{"l":"s","exponents":[1],"coefficients":[1]}]}}`, `"elements.l" holds a JSON string`},
+		{`{"name":"x","angular":"cartesian","elements":{`, "cut short"},
+	}
+	for i, c := range cases {
+		p := filepath.Join(dir, "b.json")
+		os.WriteFile(p, []byte(c.text), 0o644)
+		_, err := Load(p)
+		if err == nil || !strings.Contains(err.Error(), c.want) {
+			t.Errorf("case %d: %v, want %q", i, err, c.want)
 		}
 	}
 }

@@ -271,7 +271,7 @@ func solve(sys *system, opt Options, guess [2]*mat.SymDense) (*Result, error) {
 		}
 		res.Iterations = append(res.Iterations, Iteration{Iter: it, Energy: e, DeltaE: dE, DensityRMS: rms, OrbitalGradient: grad, DIISVectors: nd})
 		if opt.Progress != nil {
-			fmt.Fprintf(opt.Progress, "%s cycle %3d   energy %19.12f Eh   change %+10.3e   density rms %9.3e   gradient %9.3e   diis %d\n",
+			fmt.Fprintf(opt.Progress, "%s cycle %3d   energy %19.12f hartree   change %+10.3e   density rms %9.3e   gradient %9.3e   diis %d\n",
 				opt.Reference, it, e, dE, rms, grad, nd)
 		}
 		if fx == nil {
