@@ -1,7 +1,8 @@
 package integral
 
-// Read-only access to the in-core integral store, for code that needs the
-// integrals themselves rather than J and K (e.g. an AO→MO transformation).
+// Block-wise access to the integrals, for code that needs the integrals
+// themselves rather than J and K (e.g. an AO→MO transformation): read
+// from the in-core store, or computed block by block.
 
 // PairClass is the set of function pairs of one pair of shell groups (the
 // unit in which integrals are stored). Pair function f joins functions
@@ -14,25 +15,28 @@ type PairClass struct {
 	Self   bool
 }
 
-// storedBlock is one stored quartet of pair classes (bra ≥ ket): its
-// chunk and the offsets of its packed values and row counts there.
+// storedBlock locates one stored block: its chunk (−1 when the block is
+// dropped by the Schwarz test) and the offsets of its row counts and
+// packed values there.
 type storedBlock struct {
-	bra, ket int32
-	chunk    int32
-	c0, v0   int64
+	chunk  int32
+	c0, v0 int64
 }
 
-// Stored is a read-only view of the screened integrals held in core. It
-// lists blocks (bra|ket) of pair classes, bra ≥ ket, each kept block once,
-// in a fixed order that depends only on the basis and the screening (not
-// on the thread count). A block (P|P) holds both (ab|cd) and (cd|ab).
-// Blocks dropped by the Schwarz test are absent; integrals that are
-// exactly zero are stored as absent and unpack as 0. All methods are safe
+// Blocks gives the integrals by blocks (P|Q) of pair classes:
+// Fill(P, Q) writes (ab|cd) for every pair function ab of P and cd of Q
+// (a block (P|P) thus holds both (ab|cd) and (cd|ab)). Kept says which
+// blocks survive the Schwarz test; the others are zero to the threshold.
+// The values are read from the in-core store (StoredBlocks; exact zeros
+// are not stored and fill as 0) or computed on each Fill
+// (ComputedBlocks), with the same bits either way. All methods are safe
 // for concurrent use, also alongside J/K builds of the engine.
-type Stored struct {
+type Blocks struct {
+	e        *ERI
+	stored   bool
 	classes  []PairClass
-	blocks   []storedBlock
-	vals     [][]float64 // per chunk
+	at       []storedBlock // stored: per block, index pairIndex(P, Q)
+	vals     [][]float64   // stored: per chunk
 	pos, cnt [][]uint16
 	values   int64
 }
@@ -46,27 +50,23 @@ func (e *ERI) InCore() bool {
 	return e.store != nil && e.store.inCore && e.store.filled
 }
 
-// Stored returns the view of the in-core integrals, or nil when they are
-// not in core (see InCore). Each call builds a new index (cheap: one
-// entry per stored block); the integral values are shared, not copied.
-func (e *ERI) Stored() *Stored {
+// StoredBlocks returns the blocks of the in-core integrals, or nil when
+// they are not in core (see InCore). Each call builds a new index (one
+// entry per block); the integral values are shared, not copied.
+func (e *ERI) StoredBlocks() *Blocks {
 	e.jkMu.Lock()
 	defer e.jkMu.Unlock()
 	st := e.store
 	if st == nil || !st.inCore || !st.filled {
 		return nil
 	}
-	s := &Stored{classes: make([]PairClass, len(e.pairs))}
-	for P := range e.pairs {
-		pd := &e.pairs[P]
-		s.classes[P] = PairClass{
-			Mu:   append([]int32(nil), pd.mu...),
-			Nu:   append([]int32(nil), pd.nu...),
-			Self: pd.I == pd.J,
-		}
+	s := e.newBlocks()
+	s.stored = true
+	s.at = make([]storedBlock, len(e.pairs)*(len(e.pairs)+1)/2)
+	for k := range s.at {
+		s.at[k].chunk = -1
 	}
 	// The same traversal as the store pass of runChunk.
-	s.blocks = make([]storedBlock, 0, st.unique)
 	for ci, c := range st.chunks {
 		s.vals = append(s.vals, c.vals)
 		s.pos = append(s.pos, c.pos)
@@ -80,7 +80,7 @@ func (e *ERI) Stored() *Stored {
 				if qp*e.schwarzP[Q] < e.thr {
 					continue
 				}
-				s.blocks = append(s.blocks, storedBlock{bra: int32(P), ket: int32(Q), chunk: int32(ci), c0: oc, v0: ov})
+				s.at[pairIndex(P, Q)] = storedBlock{chunk: int32(ci), c0: oc, v0: ov}
 				for _, m := range c.cnt[oc : oc+int64(A.ntot)] {
 					ov += int64(m)
 				}
@@ -92,41 +92,90 @@ func (e *ERI) Stored() *Stored {
 	return s
 }
 
-// NumClasses is the number of pair classes.
-func (s *Stored) NumClasses() int { return len(s.classes) }
+// ComputedBlocks returns the blocks with values computed by Fill (each
+// call evaluates the block again), whatever the in-core state.
+func (e *ERI) ComputedBlocks() *Blocks { return e.newBlocks() }
 
-// Class returns pair class P. Its slices must not be modified.
-func (s *Stored) Class(P int) PairClass { return s.classes[P] }
-
-// NumBlocks is the number of stored blocks.
-func (s *Stored) NumBlocks() int { return len(s.blocks) }
-
-// NumValues is the number of stored (non-zero) integrals.
-func (s *Stored) NumValues() int64 { return s.values }
-
-// Block returns the bra and ket pair classes of block k (bra ≥ ket).
-func (s *Stored) Block(k int) (bra, ket int) {
-	b := &s.blocks[k]
-	return int(b.bra), int(b.ket)
+func (e *ERI) newBlocks() *Blocks {
+	s := &Blocks{e: e, classes: make([]PairClass, len(e.pairs))}
+	for P := range e.pairs {
+		pd := &e.pairs[P]
+		s.classes[P] = PairClass{
+			Mu:   append([]int32(nil), pd.mu...),
+			Nu:   append([]int32(nil), pd.nu...),
+			Self: pd.I == pd.J,
+		}
+	}
+	return s
 }
 
-// Unpack writes block k as a dense row-major matrix
-// out[f·nk+g] = (Mu[f] Nu[f] | Mu'[g] Nu'[g]), f over the bra class, g
-// over the ket class (nk functions pairs), chemists' notation; absent
-// (exactly zero) integrals are written as 0. out must hold at least
-// nb·nk values.
-func (s *Stored) Unpack(k int, out []float64) {
-	b := &s.blocks[k]
-	nb, nk := len(s.classes[b.bra].Mu), len(s.classes[b.ket].Mu)
-	out = out[:nb*nk]
+// NumClasses is the number of pair classes.
+func (s *Blocks) NumClasses() int { return len(s.classes) }
+
+// Class returns pair class P. Its slices must not be modified.
+func (s *Blocks) Class(P int) PairClass { return s.classes[P] }
+
+// Kept reports whether block (P|Q) (either order) survives the Schwarz
+// test; blocks that do not are left out of the store and of J/K builds.
+func (s *Blocks) Kept(P, Q int) bool {
+	e := s.e
+	return e.schwarzP[P]*e.schwarzP[Q] >= e.thr
+}
+
+// NumValues is the number of stored (non-zero) integrals; 0 for computed blocks.
+func (s *Blocks) NumValues() int64 { return s.values }
+
+// Stored reports whether the values are read from the in-core store.
+func (s *Blocks) Stored() bool { return s.stored }
+
+// Fill writes block (P|Q) (either order) as a dense row-major matrix
+// out[f·nq+g] = (Mu[f] Nu[f] | Mu'[g] Nu'[g]), f over the pair functions
+// of class P, g over the nq of class Q, chemists' notation (all zero for
+// a block that is not kept). out must hold at least np·nq values.
+func (s *Blocks) Fill(P, Q int, out []float64) {
+	np, nq := len(s.classes[P].Mu), len(s.classes[Q].Mu)
+	out = out[:np*nq]
+	if !s.Kept(P, Q) {
+		for i := range out {
+			out[i] = 0
+		}
+		return
+	}
+	if !s.stored {
+		e := s.e
+		w := e.getWork()
+		if P >= Q {
+			e.quartet(&e.pairs[P], &e.pairs[Q], w, out)
+		} else { // as (Q|P), so that both orders have the same bits
+			blk := w.out[:nq*np]
+			e.quartet(&e.pairs[Q], &e.pairs[P], w, blk)
+			for g := 0; g < nq; g++ {
+				for f, v := range blk[g*np : (g+1)*np] {
+					out[f*nq+g] = v
+				}
+			}
+		}
+		e.workPool.Put(w)
+		return
+	}
 	for i := range out {
 		out[i] = 0
 	}
-	cnt := s.cnt[b.chunk][b.c0 : b.c0+int64(nb)]
+	b := s.at[pairIndex(P, Q)]
 	vals, pos := s.vals[b.chunk][b.v0:], s.pos[b.chunk][b.v0:]
+	if P < Q { // stored as (Q|P): write its transpose
+		o := 0
+		for g, m := range s.cnt[b.chunk][b.c0 : b.c0+int64(nq)] {
+			for t, v := range vals[o : o+int(m)] {
+				out[int(pos[o+t])*nq+g] = v
+			}
+			o += int(m)
+		}
+		return
+	}
 	o := 0
-	for f, m := range cnt {
-		row := out[f*nk : (f+1)*nk]
+	for f, m := range s.cnt[b.chunk][b.c0 : b.c0+int64(np)] {
+		row := out[f*nq : (f+1)*nq]
 		for t, v := range vals[o : o+int(m)] {
 			row[pos[o+t]] = v
 		}

@@ -7,24 +7,32 @@ import (
 	"moltrail/engine/integral"
 )
 
-// In-core first half-transformation. When the SCF's integral engine holds
-// the screened unique integrals in memory, (j p|λσ) is formed from them
-// instead of recomputing every shell quartet: the ket pairs λ ≥ σ are
-// taken in slabs (whole pair classes of the store, as many as fit
-// maxSlabBytes); for each slab one sweep over the stored blocks scatters
-// (μν|λσ) into X[λσ][μ][ν] (each element comes from exactly one block,
-// using the 8-fold symmetry), and the two quarter transformations are
-// dense matrix products over fixed tiles of the slab. Every element of
-// the result is one fixed sequence of products whatever the number of
-// threads, so the bits do not depend on it.
+// First half-transformation from blocks of the integral engine. The ket
+// pairs λ ≥ σ are taken in slabs (whole pair classes, as many as fit the
+// slab budget); for each slab one sweep over the engine's blocks of pair
+// classes scatters (μν|λσ) into X[λσ][μ][ν] (each element comes from
+// exactly one block, using the 8-fold symmetry), and the two quarter
+// transformations are dense matrix products over fixed tiles of the slab.
+// When the SCF's engine holds the screened integrals in core the blocks
+// are read from there; otherwise each block touching the slab is computed
+// (a block whose two classes lie in different slabs is computed once for
+// each, so larger slabs save work). Only blocks kept by the engine's
+// Schwarz test are used; the rest are zero to the threshold. Every
+// element of the result is one fixed sequence of products whatever the
+// number of threads, so the bits do not depend on it.
 
-// storedSource is an integral engine that may hold its integrals in core.
-type storedSource interface {
-	Stored() *integral.Stored
+// blockSource is an integral engine that offers its integrals by blocks.
+type blockSource interface {
+	StoredBlocks() *integral.Blocks
+	ComputedBlocks() *integral.Blocks
 }
 
-// maxSlabBytes caps the X buffer of one slab.
-const maxSlabBytes = int64(128) << 20
+// Caps of the X buffer of one slab: reading stored blocks again is cheap,
+// computing them is not.
+const (
+	maxSlabBytesStored   = int64(128) << 20
+	maxSlabBytesComputed = int64(512) << 20
+)
 
 // minSlabBytes is what a slab may use even when the budget is spent on
 // the half-transformed integrals.
@@ -33,12 +41,12 @@ const minSlabBytes = int64(16) << 20
 // slabTile is the number of ket pairs per matrix-product work item.
 const slabTile = 16
 
-// blockRun is the number of consecutive stored blocks per scatter work item.
-const blockRun = 512
+// classRun is the number of partner classes per scatter work item.
+const classRun = 64
 
 // storedPlan is the slab layout of the in-core path.
 type storedPlan struct {
-	st *integral.Stored
+	st *integral.Blocks
 	// rank[P][f] is the position of pair function f among the canonical
 	// pairs of class P, or −1 for the second listing of a pair in a
 	// self-paired class.
@@ -50,7 +58,7 @@ type storedPlan struct {
 
 // newStoredPlan splits the pair classes into slabs of at most
 // slabBytes of X (at least one class each).
-func newStoredPlan(st *integral.Stored, n int, slabBytes int64) *storedPlan {
+func newStoredPlan(st *integral.Blocks, n int, slabBytes int64) *storedPlan {
 	nc := st.NumClasses()
 	sp := &storedPlan{st: st, rank: make([][]int32, nc), ncan: make([]int, nc)}
 	for P := 0; P < nc; P++ {
@@ -85,15 +93,15 @@ func newStoredPlan(st *integral.Stored, n int, slabBytes int64) *storedPlan {
 	if len(cur) > 0 {
 		sp.slabs = append(sp.slabs, cur)
 	}
-	for k := 0; k < st.NumBlocks(); k++ {
-		P, Q := st.Block(k)
-		sp.maxNB = max(sp.maxNB, len(st.Class(P).Mu)*len(st.Class(Q).Mu))
+	for P := 0; P < nc; P++ {
+		sp.maxNB = max(sp.maxNB, len(st.Class(P).Mu))
 	}
+	sp.maxNB *= sp.maxNB
 	return sp
 }
 
 // halfTransformStored fills buf exactly as halfTransform does, from the
-// in-core integrals.
+// blocks of sp.
 func (p *problem) halfTransformStored(sp *storedPlan, rho, j0, j1, pStart, nP int, buf []float64) {
 	n := p.lay.n
 	npair := n * (n + 1) / 2
@@ -123,58 +131,59 @@ func (p *problem) halfTransformStored(sp *storedPlan, rho, j0, j1, pStart, nP in
 			}
 		}
 		x = grow(x, nls*n*n) // X[slot][μ][ν]
-		nblk := st.NumBlocks()
-		p.parallel((nblk+blockRun-1)/blockRun, func(w, item int, scr *scratch) {
-			for k := item * blockRun; k < min((item+1)*blockRun, nblk); k++ {
-				P, Q := st.Block(k)
-				bp, bq := base[P], base[Q]
-				if bp < 0 && bq < 0 {
+		// Work item (slab class P, run of classes R): blocks (P|R) for R
+		// outside the slab or R ≤ P; item P writes the slots of P and, for
+		// R < P in the slab, those of R, so every X element has one writer.
+		nc := st.NumClasses()
+		nrun := (nc + classRun - 1) / classRun
+		p.parallel(len(slab)*nrun, func(w, item int, scr *scratch) {
+			P := slab[item/nrun]
+			r0 := (item % nrun) * classRun
+			if cap(scr.m) < sp.maxNB {
+				scr.m = make([]float64, sp.maxNB)
+			}
+			m := scr.m
+			cP, rP, bP := st.Class(P), sp.rank[P], base[P]
+			for R := r0; R < min(r0+classRun, nc); R++ {
+				bR := base[R]
+				if (bR >= 0 && R > P) || !st.Kept(P, R) {
 					continue
 				}
-				if P == Q {
-					bp = -1 // (P|P) lists both orientations: the ket side covers it
-				}
-				if cap(scr.m) < sp.maxNB {
-					scr.m = make([]float64, sp.maxNB)
-				}
-				m := scr.m
-				st.Unpack(k, m)
-				bra, ket := st.Class(P), st.Class(Q)
-				rb, rk := sp.rank[P], sp.rank[Q]
-				nk := len(ket.Mu)
-				if bq >= 0 {
-					for g, r := range rk {
-						if r < 0 {
+				st.Fill(P, R, m)
+				cR, rR := st.Class(R), sp.rank[R]
+				nr := len(cR.Mu)
+				for f, r := range rP {
+					if r < 0 {
+						continue
+					}
+					xs := x[(bP+int(r))*n*n : (bP+int(r)+1)*n*n]
+					row := m[f*nr : (f+1)*nr]
+					for g, rg := range rR {
+						v := row[g]
+						if rg < 0 || v == 0 {
 							continue
 						}
-						s := bq + int(r)
-						for f, rf := range rb {
-							v := m[f*nk+g]
-							if rf < 0 || v == 0 {
-								continue
-							}
-							mu, nu := int(bra.Mu[f]), int(bra.Nu[f])
-							x[(s*n+mu)*n+nu] = v
-							x[(s*n+nu)*n+mu] = v
-						}
+						mu, nu := int(cR.Mu[g]), int(cR.Nu[g])
+						xs[mu*n+nu] = v
+						xs[nu*n+mu] = v
 					}
 				}
-				if bp >= 0 {
-					for f, r := range rb {
-						if r < 0 {
+				if bR < 0 || R == P {
+					continue
+				}
+				for g, r := range rR {
+					if r < 0 {
+						continue
+					}
+					xs := x[(bR+int(r))*n*n : (bR+int(r)+1)*n*n]
+					for f, rf := range rP {
+						v := m[f*nr+g]
+						if rf < 0 || v == 0 {
 							continue
 						}
-						s := bp + int(r)
-						row := m[f*nk : (f+1)*nk]
-						for g, rg := range rk {
-							v := row[g]
-							if rg < 0 || v == 0 {
-								continue
-							}
-							la, si := int(ket.Mu[g]), int(ket.Nu[g])
-							x[(s*n+la)*n+si] = v
-							x[(s*n+si)*n+la] = v
-						}
+						mu, nu := int(cP.Mu[f]), int(cP.Nu[f])
+						xs[mu*n+nu] = v
+						xs[nu*n+mu] = v
 					}
 				}
 			}

@@ -29,15 +29,15 @@ func hydroxylCCPVDZ(t *testing.T) (*molecule.Molecule, *basis.Molecular, *scf.Re
 	return m, mb, sr, mk
 }
 
-// The half-transformed integrals from the in-core store agree with the
-// recomputed ones, and have the same bits for any slab size and thread
-// count.
+// The half-transformed integrals from blocks (stored or computed) agree
+// with those from shell quartets, and have the same bits for any slab
+// size, thread count and block source.
 func TestStoredHalfTransform(t *testing.T) {
 	_, _, sr, mk := hydroxylCCPVDZ(t)
 	if !sr.ERI.InCore() {
 		t.Fatal("OH cc-pVDZ integrals are not in core after the SCF")
 	}
-	st := sr.ERI.Stored()
+	stored, computed := sr.ERI.StoredBlocks(), sr.ERI.ComputedBlocks()
 	for rho := 0; rho < 2; rho++ {
 		p := mk(1)
 		nb := p.lay.n
@@ -49,10 +49,11 @@ func TestStoredHalfTransform(t *testing.T) {
 		var ref []float64
 		slot := int64(8 * nb * nb)
 		for _, tc := range []struct {
+			blocks  *integral.Blocks
 			slab    int64
 			threads int
-		}{{maxSlabBytes, 1}, {1, 1}, {7 * slot, 3}, {40 * slot, 2}} {
-			sp := newStoredPlan(st, nb, tc.slab)
+		}{{stored, maxSlabBytesStored, 1}, {stored, 1, 1}, {stored, 7 * slot, 3}, {stored, 40 * slot, 2}, {computed, 7 * slot, 2}, {computed, maxSlabBytesComputed, 1}} {
+			sp := newStoredPlan(tc.blocks, nb, tc.slab)
 			if tc.slab == 1 && len(sp.slabs) < 10 {
 				t.Errorf("a 1-byte slab budget gives %d slabs, expected one per pair class", len(sp.slabs))
 			}
@@ -75,7 +76,7 @@ func TestStoredHalfTransform(t *testing.T) {
 			}
 			for i := range got {
 				if got[i] != ref[i] {
-					t.Errorf("spin %d, %d slabs, %d threads: element %d is %.17g, one slab gives %.17g", rho, len(sp.slabs), tc.threads, i, got[i], ref[i])
+					t.Errorf("spin %d, stored %v, %d slabs, %d threads: element %d is %.17g, one stored slab gives %.17g", rho, tc.blocks.Stored(), len(sp.slabs), tc.threads, i, got[i], ref[i])
 					break
 				}
 			}
@@ -83,7 +84,7 @@ func TestStoredHalfTransform(t *testing.T) {
 	}
 }
 
-// MP2 with a direct-mode integral engine (every quartet recomputed) equals
+// MP2 with a direct-mode integral engine (every block computed) equals
 // MP2 from the in-core store, and is itself independent of the thread count.
 func TestDirectMatchesStored(t *testing.T) {
 	m, bs, sr, _ := hydroxylCCPVDZ(t)

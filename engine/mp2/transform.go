@@ -155,10 +155,13 @@ func (p *problem) run() ([2]*accum, int, error) {
 		mem = DefaultMemoryBytes
 	}
 	var sp *storedPlan
-	if src, ok := p.eri.(storedSource); ok {
-		if st := src.Stored(); st != nil {
-			sp = &storedPlan{st: st}
+	slabCap := maxSlabBytesStored
+	if src, ok := p.eri.(blockSource); ok {
+		st := src.StoredBlocks()
+		if st == nil {
+			st, slabCap = src.ComputedBlocks(), maxSlabBytesComputed
 		}
+		sp = &storedPlan{st: st}
 	}
 	passes := 0
 	for rho := 0; rho < nspin; rho++ {
@@ -183,7 +186,7 @@ func (p *problem) run() ([2]*accum, int, error) {
 		}
 		buf := make([]float64, nb*nP*npair)
 		if sp != nil && sp.slabs == nil {
-			slab := min(max(mem-int64(len(buf))*8, minSlabBytes), maxSlabBytes)
+			slab := min(max(mem-int64(len(buf))*8, minSlabBytes), slabCap)
 			sp = newStoredPlan(sp.st, n, slab)
 		}
 		for j0 := p.frozen; j0 < p.spin[rho].nocc; j0 += nb {
