@@ -17,20 +17,20 @@
 // memory budget), the half-transformed (j p|λσ) are formed (p over the
 // virtual orbitals for energies, over all orbitals for the relaxed
 // density; λ ≥ σ packed); then, orbital j by orbital j, (j p|k b) and the
-// amplitudes. The AO integrals come from the SCF's engine: read from its
-// in-core store when it holds them (stored.go: slabs of ket pairs, 8-fold
-// symmetry, quarter transformations as dense matrix products), otherwise
-// recomputed shell quartet by shell quartet (direct). Cost O(o N⁴) for
-// the first two quarters, O(o² N³) after; memory: the batch buffer (≥ one
-// j: N·N(N+1)/2 doubles, 62 MiB at N = 250) plus O(o v N) per worker, and
-// on the in-core path a slab buffer of at most 128 MiB (what the budget
-// leaves, at least 16 MiB or one pair class). MP2 itself never holds the
-// full AO or MO tensor, so energies of 250 basis functions (whose
-// integrals do not fit the engine's default in-core budget) fit in 2 GiB
-// with the default budget. The same loop accumulates every piece of the
-// relaxed density (relaxed.go), so the relaxed density needs no second
-// integral pass; the Z-vector equations are then solved with one J/K
-// build per iteration.
+// amplitudes. The AO integrals come from the SCF's engine by blocks of
+// shell-group pairs (stored.go: slabs of ket pairs, 8-fold symmetry,
+// quarter transformations as dense matrix products): read from its
+// in-core store when it holds them, otherwise computed (direct). Cost
+// O(o N⁴) for the first two quarters, O(o² N³) after. Memory: the batch
+// buffer (≥ one j: N·N(N+1)/2 doubles, 62 MiB at N = 250), a slab buffer
+// of what the budget leaves (at least 16 MiB or one pair class; at most
+// 128 MiB in-core, 512 MiB direct) and O(o v N) per worker, so MP2 stays
+// within the budget plus 16 MiB and never holds the full AO or MO
+// tensor: energies of 250 basis functions (whose integrals do not fit
+// the engine's default in-core budget) fit in 2 GiB with the default
+// budget. The same loop accumulates every piece of the relaxed density
+// (relaxed.go), so the relaxed density needs no second integral pass; the
+// Z-vector equations are then solved with one J/K build per iteration.
 //
 // Determinism: every quantity is either written by one worker only or
 // summed over occupied orbitals in index order, so the result has the same

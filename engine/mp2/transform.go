@@ -291,7 +291,10 @@ func grow(s []float64, n int) []float64 {
 
 // halfTransform fills buf[(j−j0)][p−pStart][λσ] = (j p|λσ) for occupied
 // j in [j0, j1) and orbitals p in [pStart, pStart+nP) of spin rho, λ ≥ σ
-// packed. Work is split by the shell pair (L, S) of λσ; each pair's slots
+// packed, from single shell quartets (Shell, shell-pair Schwarz
+// screening). It serves engines that offer no blocks of pair classes
+// (see stored.go, the path taken with package integral's engine) and is
+// the independent check of that path in the tests. Work is split by the shell pair (L, S) of λσ; each pair's slots
 // are written by one worker only.
 func (p *problem) halfTransform(rho, j0, j1, pStart, nP int, buf []float64) {
 	lay := p.lay
