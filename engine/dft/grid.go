@@ -121,10 +121,12 @@ func prunedOrder(L int, r, R float64) int {
 }
 
 // prunedOrderOuter is the angular order under the "zones-outer" pruning:
-// as "zones" within R/2 of the nucleus, L out to 4R, and ≈ 2L/3 beyond 4R,
+// as "zones" within R/2 of the nucleus, L out to 6R, and ≈ 2L/3 beyond 6R,
 // where the density is small and slowly varying (each at least 7 and odd).
+// (At 4R, the boundary falls inside benzene for hydrogen, whose R is
+// small, and its integrated electron count error grew threefold.)
 func prunedOrderOuter(L int, r, R float64) int {
-	if r >= 4*R {
+	if r >= 6*R {
 		return prunedOrder(L, 0.25*R, R) // the ≈ 2L/3 of the R/4–R/2 zone
 	}
 	return prunedOrder(L, r, R)

@@ -14,7 +14,9 @@ const DefaultLevel = "standard"
 // radial points and outer pruning were chosen by measurement: against 75
 // points with "zones" pruning they change the B3LYP/cc-pVDZ energies of
 // water, CO and OH by < 1e-7 Eh and their integrated electron counts by
-// < 5e-8, with a third fewer points.
+// < 5e-8; for benzene (263,802 points instead of 369,768) the energy stays
+// within 1e-6 Eh of the reference level's and the electron count error is
+// 7e-7 (1.4e-6 before).
 var levels = []GridSpec{
 	{Level: "coarse", RadialScheme: "treutler-m4", RadialPoints: 50, AngularOrder: 23, Partition: "becke-size-adjusted", Pruning: "zones", DensityCut: 1e-12, BasisCut: 1e-10},
 	{Level: "standard", RadialScheme: "treutler-m4", RadialPoints: 60, AngularOrder: 35, Partition: "becke-size-adjusted", Pruning: "zones-outer", DensityCut: 1e-14, BasisCut: 1e-12},
