@@ -16,6 +16,11 @@
 // polarised one at ρα = ρβ = ρ/2 with the chain rule applied through the
 // seeds.
 //
+// Per batch of grid points, the density Φ·D and the potential Φᵀ·Z are
+// register-blocked matrix products (gemm.go: AVX2/FMA or AVX-512 assembly
+// on amd64, a Go loop elsewhere) on zero-padded arrays, and basis values
+// are kept between SCF iterations up to a memory budget.
+//
 // Everything is in atomic units. Results are bit-identical for any thread
 // count: work is divided into a fixed set of chunks whose partial sums are
 // added in a fixed order.

@@ -245,3 +245,20 @@ func TestBasisGradients(t *testing.T) {
 		}
 	}
 }
+
+// Angular orders of the two pruning schemes at the zone boundaries
+// (L = 35, R = 1): 11 inside R/4, 23 inside R/2, 35 beyond; zones-outer
+// goes back to 23 from 6R on.
+func TestPrunedOrders(t *testing.T) {
+	for _, c := range []struct {
+		r           float64
+		zones, outr int
+	}{{0.1, 11, 11}, {0.3, 23, 23}, {0.6, 35, 35}, {5.9, 35, 35}, {6, 35, 23}, {20, 35, 23}} {
+		if got := prunedOrder(35, c.r, 1); got != c.zones {
+			t.Errorf("zones at r=%g: order %d, want %d", c.r, got, c.zones)
+		}
+		if got := prunedOrderOuter(35, c.r, 1); got != c.outr {
+			t.Errorf("zones-outer at r=%g: order %d, want %d", c.r, got, c.outr)
+		}
+	}
+}
