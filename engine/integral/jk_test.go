@@ -141,7 +141,7 @@ func TestNewERIErrors(t *testing.T) {
 // direct; its J/K work space stays far below 2 GiB.
 func TestLargeJobGoesDirect(t *testing.T) {
 	if testing.Short() {
-		t.Skip("sets up a 264-function basis")
+		t.Skip("-short mode: sets up a 264-function basis")
 	}
 	mb, _ := buildBasis(t, "cc-pvtz", "", benzene()...)
 	e, err := NewERI(mb, Options{})
