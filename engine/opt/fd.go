@@ -8,58 +8,19 @@ import (
 )
 
 // FiniteDifferenceGradient returns an EnergyGradient that differentiates
-// energy by central differences with step h (bohr): 6N energies per
-// gradient, run on `workers` goroutines. The truncation error is O(h²)
-// (about 1e-7 hartree/bohr for h = 1e-3 bohr on typical surfaces).
+// energy by central differences with step h (bohr) along every Cartesian
+// coordinate: 6N energies per gradient, run on `workers` goroutines. The
+// truncation error is O(h²) (about 1e-7 hartree/bohr for h = 1e-3 bohr on
+// typical surfaces).
 func FiniteDifferenceGradient(energy func(x []float64) (float64, error), h float64, workers int) EnergyGradient {
-	if workers < 1 {
-		workers = 1
-	}
-	return func(x []float64) (float64, []float64, error) {
-		n := len(x)
-		vals := make([]float64, 2*n)
-		errs := make([]error, 2*n)
-		tasks := make(chan int)
-		var wg sync.WaitGroup
-		for w := 0; w < workers; w++ {
-			wg.Add(1)
-			go func() {
-				defer wg.Done()
-				for t := range tasks {
-					y := append([]float64(nil), x...)
-					i := t / 2
-					if t%2 == 0 {
-						y[i] += h
-					} else {
-						y[i] -= h
-					}
-					vals[t], errs[t] = energy(y)
-				}
-			}()
+	return directional(energy, h, workers, func(x []float64) [][]float64 {
+		dirs := make([][]float64, len(x))
+		for i := range dirs {
+			dirs[i] = make([]float64, len(x))
+			dirs[i][i] = 1
 		}
-		var e0 float64
-		var err0 error
-		wg.Add(1)
-		go func() { defer wg.Done(); e0, err0 = energy(x) }()
-		for t := 0; t < 2*n; t++ {
-			tasks <- t
-		}
-		close(tasks)
-		wg.Wait()
-		if err0 != nil {
-			return 0, nil, err0
-		}
-		g := make([]float64, n)
-		for i := 0; i < n; i++ {
-			for s := 0; s < 2; s++ {
-				if errs[2*i+s] != nil {
-					return 0, nil, fmt.Errorf("displaced energy for coordinate %d: %w", i, errs[2*i+s])
-				}
-			}
-			g[i] = (vals[2*i] - vals[2*i+1]) / (2 * h)
-		}
-		return e0, g, nil
-	}
+		return dirs
+	})
 }
 
 // InternalFiniteDifferenceGradient is FiniteDifferenceGradient taken only
@@ -68,11 +29,18 @@ func FiniteDifferenceGradient(energy func(x []float64) (float64, error), h float
 // gradient is the same but needs 2(3N−6) energies instead of 6N — two for a
 // diatomic instead of twelve.
 func InternalFiniteDifferenceGradient(energy func(x []float64) (float64, error), h float64, workers int) EnergyGradient {
+	return directional(energy, h, workers, internalDirections)
+}
+
+// directional differentiates energy along orthonormal directions: the
+// gradient is Σ_k (dE/dq_k) d_k, with central differences of step h, the
+// displaced energies computed on `workers` goroutines.
+func directional(energy func(x []float64) (float64, error), h float64, workers int, directions func([]float64) [][]float64) EnergyGradient {
 	if workers < 1 {
 		workers = 1
 	}
 	return func(x []float64) (float64, []float64, error) {
-		dirs := internalDirections(x)
+		dirs := directions(x)
 		m := len(dirs)
 		vals := make([]float64, 2*m)
 		errs := make([]error, 2*m)
@@ -111,7 +79,7 @@ func InternalFiniteDifferenceGradient(energy func(x []float64) (float64, error),
 		for k := 0; k < m; k++ {
 			for s := 0; s < 2; s++ {
 				if errs[2*k+s] != nil {
-					return 0, nil, fmt.Errorf("displaced energy along internal direction %d: %w", k, errs[2*k+s])
+					return 0, nil, fmt.Errorf("displaced energy along direction %d: %w", k, errs[2*k+s])
 				}
 			}
 			d := (vals[2*k] - vals[2*k+1]) / (2 * h)
