@@ -1,6 +1,6 @@
 //go:build !amd64
 
-package dft
+package gemm
 
 var useFMA, useAVX512 = false, false
 

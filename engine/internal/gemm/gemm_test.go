@@ -1,4 +1,4 @@
-package dft
+package gemm
 
 import (
 	"math"
@@ -7,7 +7,7 @@ import (
 
 // The block product against a plain triple loop, for both kernels, full
 // and upper-triangle forms, several shapes and strides.
-func TestGemmCM(t *testing.T) {
+func TestCM(t *testing.T) {
 	for _, sh := range [][6]int{{4, 8, 1, 4, 8, 8}, {8, 16, 5, 9, 17, 24}, {12, 24, 37, 12, 24, 24}, {32, 40, 128, 36, 48, 40}, {40, 48, 19, 41, 50, 56}} {
 		m, n, k, lda, ldb, ldc := sh[0], sh[1], sh[2], sh[3], sh[4], sh[5]
 		a := make([]float64, k*lda)
@@ -30,7 +30,7 @@ func TestGemmCM(t *testing.T) {
 				for i := range c {
 					c[i] = 99
 				}
-				gemmCM(m, n, k, a, lda, b, ldb, c, ldc, upper)
+				CM(m, n, k, a, lda, b, ldb, c, ldc, upper)
 				if kern == 2 {
 					// the wide kernel must give the 4×8 kernel's bits
 					useAVX512 = false
@@ -38,7 +38,7 @@ func TestGemmCM(t *testing.T) {
 					for i := range c8 {
 						c8[i] = 99
 					}
-					gemmCM(m, n, k, a, lda, b, ldb, c8, ldc, upper)
+					CM(m, n, k, a, lda, b, ldb, c8, ldc, upper)
 					for i := range c {
 						if c[i] != c8[i] {
 							t.Fatalf("m%d n%d k%d upper %v: 4×16 and 4×8 kernels differ at %d: %v vs %v", m, n, k, upper, i, c[i], c8[i])
@@ -66,7 +66,7 @@ func TestGemmCM(t *testing.T) {
 	}
 }
 
-func BenchmarkGemmCM(b *testing.B) {
+func BenchmarkCM(b *testing.B) {
 	const m, n, k = 96, 96, 128
 	a, bb, c := make([]float64, k*m), make([]float64, k*n), make([]float64, m*n)
 	for i := range a {
@@ -78,7 +78,7 @@ func BenchmarkGemmCM(b *testing.B) {
 	b.SetBytes(0)
 	b.ResetTimer()
 	for i := 0; i < b.N; i++ {
-		gemmCM(m, n, k, a, m, bb, n, c, n, false)
+		CM(m, n, k, a, m, bb, n, c, n, false)
 	}
 	b.ReportMetric(2*m*n*k*float64(b.N)/b.Elapsed().Seconds()/1e9, "GFLOP/s")
 }

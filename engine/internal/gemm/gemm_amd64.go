@@ -1,4 +1,4 @@
-package dft
+package gemm
 
 import "golang.org/x/sys/cpu"
 
