@@ -88,12 +88,34 @@ type OriginSpec struct {
 	Point [3]float64 `json:"point_bohr"`
 }
 
-// CorrelationSettings are MP2-family options.
+// CorrelationSettings are the options of correlated methods (MP2 family,
+// coupled cluster).
 type CorrelationSettings struct {
 	FrozenCore bool `json:"frozen_core"`
-	// RelaxedProperties: "finite-field" or "z-vector" (analytic relaxed density); "none" skips them.
+	// RelaxedProperties: "finite-field" or "z-vector" (analytic relaxed
+	// density, MP2 family only); "none" skips them.
 	RelaxedProperties string  `json:"relaxed_properties"`
 	FieldStepAU       float64 `json:"field_step_au"`
+	// FieldFormula is the finite-difference formula of coupled-cluster
+	// finite-field dipoles: "two-point" (E(±h)) or "four-point" (E(±h),
+	// E(±2h)). Absent for the MP2 family, whose route is fixed (steps h
+	// and 2h with Richardson extrapolation, the same four energies).
+	FieldFormula string `json:"field_formula,omitempty"`
+	// CC holds the coupled-cluster convergence criteria; absent for the MP2 family.
+	CC *CCSettings `json:"coupled_cluster,omitempty"`
+}
+
+// CCSettings control the coupled-cluster iterations.
+type CCSettings struct {
+	// Converged when |ΔE| between iterations is below EnergyTolHartree and
+	// the RMS change of the amplitudes is below AmplitudeTol.
+	EnergyTolHartree float64 `json:"energy_tol_hartree"`
+	AmplitudeTol     float64 `json:"amplitude_rms_tol"`
+	MaxIter          int     `json:"max_iterations"`
+	DIISSize         int     `json:"diis_size"`
+	// Integrals names the integral source: "exact" (four-index
+	// transformation of the exact integrals).
+	Integrals string `json:"integrals"`
 }
 
 // OptSettings are geometry-optimisation controls.

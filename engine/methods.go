@@ -13,7 +13,7 @@ import (
 // MethodInfo describes one method name accepted by the engine.
 type MethodInfo struct {
 	Name        string
-	Family      string // "hf", "mp2", "dft"
+	Family      string // "hf", "mp2", "cc", "dft"
 	Description string
 	// Functional is the stored XC definition for DFT methods.
 	Functional string
@@ -29,6 +29,8 @@ var Methods = map[string]MethodInfo{
 	"rohf":    {Name: "rohf", Family: "hf", Description: "restricted open-shell Hartree–Fock"},
 	"mp2":     {Name: "mp2", Family: "mp2", Description: "second-order Møller–Plesset on RHF (closed shell) or UHF", SameSpin: 1, OppositeSpin: 1},
 	"scs-mp2": {Name: "scs-mp2", Family: "mp2", Description: "spin-component-scaled MP2 (Grimme 2003: same-spin 1/3, opposite-spin 6/5)", SameSpin: 1.0 / 3.0, OppositeSpin: 6.0 / 5.0},
+	"ccsd":    {Name: "ccsd", Family: "cc", Description: "coupled cluster with single and double excitations on a closed-shell RHF reference"},
+	"ccsd(t)": {Name: "ccsd(t)", Family: "cc", Description: "CCSD with the perturbative triples correction (T) on a closed-shell RHF reference"},
 	"svwn5":   {Name: "svwn5", Family: "dft", Functional: "slater+vwn5", Description: "LDA: Slater exchange + VWN5 correlation"},
 	"blyp":    {Name: "blyp", Family: "dft", Functional: "b88+lyp", Description: "GGA: Becke 88 exchange + LYP correlation"},
 	"pbe":     {Name: "pbe", Family: "dft", Functional: "pbe-x+pbe-c", Description: "GGA: PBE exchange and correlation"},
@@ -36,6 +38,10 @@ var Methods = map[string]MethodInfo{
 	"b3lyp5":  {Name: "b3lyp5", Family: "dft", Functional: "b3lyp5(vwn5)", Description: "hybrid: B3LYP with VWN5 local correlation"},
 	"pbe0":    {Name: "pbe0", Family: "dft", Functional: "pbe0", Description: "hybrid: PBE with 25 % exact exchange"},
 }
+
+// Correlated reports whether the method adds a correlation energy to a
+// Hartree–Fock reference (the MP2 family and coupled cluster).
+func (m MethodInfo) Correlated() bool { return m.Family == "mp2" || m.Family == "cc" }
 
 // MethodNames lists the method names in a stable order.
 func MethodNames() []string {
@@ -75,7 +81,23 @@ type Request struct {
 	Origin       *OriginSpec
 	Opt          *OptSettings
 	RelaxedProps string
+	// CC overrides DefaultCC for coupled-cluster methods.
+	CC *CCSettings
+	// FieldStepAU and FieldFormula override the finite-field defaults of
+	// coupled-cluster methods (DefaultFieldStepAU, DefaultFieldFormula).
+	FieldStepAU  float64
+	FieldFormula string
 }
+
+// Coupled-cluster defaults: energies converged well past their printed
+// eighth decimal.
+var DefaultCC = CCSettings{EnergyTolHartree: 1e-10, AmplitudeTol: 1e-9, MaxIter: 100, DIISSize: 8, Integrals: "exact"}
+
+// Finite-field defaults of coupled-cluster dipoles.
+const (
+	DefaultFieldStepAU  = 2e-3
+	DefaultFieldFormula = "four-point"
+)
 
 // NewJob validates a request and returns the normalised job.
 func NewJob(r Request) (*Job, error) {
@@ -165,6 +187,34 @@ func NewJob(r Request) (*Job, error) {
 		if rp == "finite-field" {
 			j.Correlation.FieldStepAU = 2e-3
 		}
+	case "cc":
+		if open {
+			return nil, fmt.Errorf("method %s needs a closed-shell (RHF) reference, but multiplicity is %d: open-shell coupled cluster is not available", method, m.Multiplicity)
+		}
+		j.Reference = "rhf"
+		rp := r.RelaxedProps
+		if rp == "" {
+			rp = "none"
+		}
+		if rp != "none" && rp != "finite-field" {
+			return nil, fmt.Errorf("relaxed-properties route %q is not available for %s (finite-field or none)", rp, method)
+		}
+		c := DefaultCC
+		if r.CC != nil {
+			c = *r.CC
+		}
+		j.Correlation = &CorrelationSettings{FrozenCore: r.FrozenCore, RelaxedProperties: rp, CC: &c}
+		if rp == "finite-field" {
+			j.Correlation.FieldStepAU, j.Correlation.FieldFormula = DefaultFieldStepAU, DefaultFieldFormula
+			if r.FieldStepAU != 0 {
+				j.Correlation.FieldStepAU = r.FieldStepAU
+			}
+			if r.FieldFormula != "" {
+				j.Correlation.FieldFormula = lower(r.FieldFormula)
+			}
+		} else if r.FieldStepAU != 0 || r.FieldFormula != "" {
+			return nil, fmt.Errorf("a field step or formula applies to the finite-field route only")
+		}
 	case "dft":
 		j.Reference = "rks"
 		if open {
@@ -177,15 +227,15 @@ func NewJob(r Request) (*Job, error) {
 		}
 		j.Grid = &g
 	}
-	if r.FrozenCore && info.Family != "mp2" {
-		return nil, fmt.Errorf("frozen core applies to correlated methods (mp2, scs-mp2), not to %s", method)
+	if r.FrozenCore && !info.Correlated() {
+		return nil, fmt.Errorf("frozen core applies to correlated methods (mp2, scs-mp2, ccsd, ccsd(t)), not to %s", method)
 	}
 	switch j.Task {
 	case "energy":
 	case "optimize":
 		o := DefaultOpt
-		if info.Family == "mp2" {
-			// MP2-family gradients are central differences of energies.
+		if info.Correlated() {
+			// Correlated-method gradients are central differences of energies.
 			o.GradientMethod, o.FiniteDiffStepAU = "finite-difference", 1e-3
 		}
 		if r.Opt != nil {
@@ -193,7 +243,7 @@ func NewJob(r Request) (*Job, error) {
 		}
 		switch o.GradientMethod {
 		case "analytic":
-			if info.Family == "mp2" {
+			if info.Correlated() {
 				return nil, fmt.Errorf("analytic gradients are not available for %s; use the finite-difference gradient method", method)
 			}
 			o.FiniteDiffStepAU = 0
@@ -260,6 +310,11 @@ func (j *Job) Validate() error {
 	case s.SchwarzThreshold < 0 || s.SchwarzThreshold > 1e-6:
 		return fmt.Errorf("scf.schwarz_threshold %g is outside 0–1e-6", s.SchwarzThreshold)
 	}
+	if c := j.Correlation; c != nil {
+		if err := c.validate(); err != nil {
+			return err
+		}
+	}
 	switch j.Origin.Kind {
 	case "centre-of-mass", "centre-of-charge", "coordinate-origin", "point":
 	default:
@@ -283,4 +338,30 @@ func (j *Job) OriginBohr(m *molecule.Molecule) [3]float64 {
 	default:
 		return m.CentreOfMass()
 	}
+}
+
+func (c *CorrelationSettings) validate() error {
+	if cc := c.CC; cc != nil {
+		switch {
+		case !(cc.EnergyTolHartree > 0 && cc.EnergyTolHartree < 1e-3):
+			return fmt.Errorf("correlation.coupled_cluster.energy_tol_hartree %g must lie between 0 and 1e-3", cc.EnergyTolHartree)
+		case !(cc.AmplitudeTol > 0 && cc.AmplitudeTol < 1e-2):
+			return fmt.Errorf("correlation.coupled_cluster.amplitude_rms_tol %g must lie between 0 and 1e-2", cc.AmplitudeTol)
+		case cc.MaxIter < 1:
+			return fmt.Errorf("correlation.coupled_cluster.max_iterations must be at least 1")
+		case cc.DIISSize < 0:
+			return fmt.Errorf("correlation.coupled_cluster.diis_size must not be negative")
+		case cc.Integrals != "exact":
+			return fmt.Errorf("correlation.coupled_cluster.integrals %q is not available (exact)", cc.Integrals)
+		}
+	}
+	if c.FieldFormula != "" {
+		if c.FieldFormula != "two-point" && c.FieldFormula != "four-point" {
+			return fmt.Errorf("correlation.field_formula %q is not known (two-point or four-point)", c.FieldFormula)
+		}
+		if !(c.FieldStepAU > 0 && c.FieldStepAU <= 0.05) {
+			return fmt.Errorf("correlation.field_step_au %g must lie between 0 and 0.05", c.FieldStepAU)
+		}
+	}
+	return nil
 }

@@ -114,6 +114,34 @@ type Correlation struct {
 	MP2TotalHartree     float64 `json:"mp2_energy_hartree"`
 }
 
+// CoupledCluster is the coupled-cluster breakdown.
+type CoupledCluster struct {
+	Method         string `json:"method"`
+	FrozenOrbitals int    `json:"frozen_orbitals"`
+	// ActiveOccupied and Virtual are the correlated orbital counts.
+	ActiveOccupied int `json:"active_occupied_orbitals"`
+	Virtual        int `json:"virtual_orbitals"`
+	// Integrals names the integral source ("exact").
+	Integrals              string   `json:"integrals"`
+	MP2CorrelationHartree  float64  `json:"mp2_correlation_hartree"`
+	CCSDCorrelationHartree float64  `json:"ccsd_correlation_hartree"`
+	CCSDTotalHartree       float64  `json:"ccsd_energy_hartree"`
+	TriplesHartree         *float64 `json:"triples_correction_hartree,omitempty"`
+	// T1Diagnostic is the spin-orbital ‖t1‖/√N (N correlated electrons).
+	T1Diagnostic float64       `json:"t1_diagnostic"`
+	LargestT2    float64       `json:"largest_t2_amplitude"`
+	Iterations   []CCIteration `json:"iterations"`
+}
+
+// CCIteration is one line of the coupled-cluster history.
+type CCIteration struct {
+	Iteration          int     `json:"iteration"`
+	CorrelationHartree float64 `json:"correlation_hartree"`
+	DeltaEHartree      float64 `json:"delta_e_hartree"`
+	AmplitudeRMS       float64 `json:"amplitude_rms_change"`
+	DIISVectors        int     `json:"diis_vectors"`
+}
+
 // OptStep is one point of an optimisation trajectory.
 type OptStep struct {
 	Step             int        `json:"step"`
@@ -178,13 +206,14 @@ type Result struct {
 	Electrons               [2]int   `json:"electrons_alpha_beta"`
 	IntegratedElectrons     *float64 `json:"grid_integrated_electrons,omitempty"`
 
-	Orbitals        *Orbitals      `json:"orbitals,omitempty"`
-	SCFIterations   []SCFIteration `json:"scf_iterations"`
-	Correlation     *Correlation   `json:"correlation,omitempty"`
-	SCFProperties   *Properties    `json:"scf_properties,omitempty"`
-	LevelProperties *Properties    `json:"level_properties,omitempty"`
-	Trajectory      []OptStep      `json:"optimization_trajectory,omitempty"`
-	Structure       *Structure     `json:"structure,omitempty"`
+	Orbitals        *Orbitals       `json:"orbitals,omitempty"`
+	SCFIterations   []SCFIteration  `json:"scf_iterations"`
+	Correlation     *Correlation    `json:"correlation,omitempty"`
+	CoupledCluster  *CoupledCluster `json:"coupled_cluster,omitempty"`
+	SCFProperties   *Properties     `json:"scf_properties,omitempty"`
+	LevelProperties *Properties     `json:"level_properties,omitempty"`
+	Trajectory      []OptStep       `json:"optimization_trajectory,omitempty"`
+	Structure       *Structure      `json:"structure,omitempty"`
 	// Notes are plain-words remarks the engine wants a reader to see.
 	Notes []string `json:"notes,omitempty"`
 }

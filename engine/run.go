@@ -183,8 +183,13 @@ func compute(job *Job, mol *molecule.Molecule, set *basis.Set, o RunOptions, wit
 		q := pr.QuadrupoleBuckingham
 		res.QuadrupoleBuckingham = &q
 	}
-	if info.Family == "mp2" {
+	switch info.Family {
+	case "mp2":
 		if err := correlate(job, mol, mb, sr, res, o, withProps); err != nil {
+			return nil, err
+		}
+	case "cc":
+		if err := coupledCluster(job, mol, mb, sr, res, o, withProps); err != nil {
 			return nil, err
 		}
 	}

@@ -386,21 +386,21 @@ func (e LevelEntry) level(method, basisName string, single bool) (*Level, error)
 	}
 	r := engine.Request{Method: mname, Basis: basisName, Grid: e.Grid, RelaxedProps: e.RelaxedProperties}
 	if e.FrozenCore {
-		if info.Family != "mp2" && single {
-			return nil, fmt.Errorf("frozen_core applies to correlated methods (mp2, scs-mp2), not to %s", mname)
+		if !info.Correlated() && single {
+			return nil, fmt.Errorf("frozen_core applies to correlated methods (mp2, scs-mp2, ccsd, ccsd(t)), not to %s", mname)
 		}
-		r.FrozenCore = info.Family == "mp2"
+		r.FrozenCore = info.Correlated()
 	}
 	if e.Grid != "" && info.Family != "dft" && single {
 		return nil, fmt.Errorf("grid applies to DFT methods, not to %s", mname)
 	}
-	if e.RelaxedProperties != "" && info.Family != "mp2" && single {
-		return nil, fmt.Errorf("relaxed_properties applies to MP2-family methods, not to %s", mname)
+	if e.RelaxedProperties != "" && !info.Correlated() && single {
+		return nil, fmt.Errorf("relaxed_properties applies to correlated methods, not to %s", mname)
 	}
 	if info.Family != "dft" {
 		r.Grid = ""
 	}
-	if info.Family != "mp2" {
+	if !info.Correlated() {
 		r.RelaxedProps = ""
 	}
 	switch e.Angular {

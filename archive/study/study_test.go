@@ -67,7 +67,7 @@ func TestParseErrors(t *testing.T) {
 		{"file and xyz", `{"format":"moltrail-study/1","name":"x","molecules":[{"file":"h2.xyz","xyz":"x"}],"levels":[{"method":"hf","basis":"sto-3g"}],"tasks":[{"task":"energy"}]}`, "not both"},
 		{"duplicate molecule", `{"format":"moltrail-study/1","name":"x","molecules":[{"file":"h2.xyz"},{"file":"h2.xyz"}],"levels":[{"method":"hf","basis":"sto-3g"}],"tasks":[{"task":"energy"}]}`, `molecules[1]: the name "dihydrogen" is used by molecules[0] too`},
 		{"bad xyz", `{"format":"moltrail-study/1","name":"x","molecules":[{"xyz":"2\nx\nH 0 0 0\n"}],"levels":[{"method":"hf","basis":"sto-3g"}],"tasks":[{"task":"energy"}]}`, "molecules[0]: inline xyz:4"},
-		{"unknown method", base(`[{"method":"ccsd","basis":"sto-3g"}]`, `[{"task":"energy"}]`), `levels[0]: method "ccsd" is not known`},
+		{"unknown method", base(`[{"method":"cisd","basis":"sto-3g"}]`, `[{"task":"energy"}]`), `levels[0]: method "cisd" is not known`},
 		{"unknown basis", base(`[{"method":"hf","basis":"nobasis"}]`, `[{"task":"energy"}]`), `levels[0]: basis`},
 		{"half level", base(`[{"method":"hf"}]`, `[{"task":"energy"}]`), `needs both "method" and "basis"`},
 		{"mixed level", base(`[{"method":"hf","basis":"sto-3g","methods":["mp2"]}]`, `[{"task":"energy"}]`), "not both"},

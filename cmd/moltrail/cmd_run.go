@@ -28,7 +28,7 @@ func engineCompute(job *engine.Job, threads int, progress io.Writer) (*engine.Re
 func cmdRun(args []string, stdout, stderr io.Writer) int {
 	fs := newFlags("run", stderr, "[flags] MOLECULE.xyz  |  [flags] --geometry-from ID")
 	af := addArchiveFlags(fs)
-	method := fs.String("method", "hf", "the `METHOD`: "+joinNames(engine.MethodNames()))
+	method := fs.String("method", "hf", "the `METHOD`: "+joinNames(engine.MethodNames())+" (ccsd and ccsd(t) need a closed-shell RHF reference: open shells are refused)")
 	basisName := fs.String("basis", "cc-pvdz", "basis set `NAME` or alias (moltrail basis lists them), or a basis JSON file")
 	charge := fs.Int("charge", 0, "total charge")
 	mult := fs.Int("multiplicity", 0, "spin multiplicity (default: the lowest the electron count allows)")
@@ -55,6 +55,12 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 	geomFrom := fs.String("geometry-from", "", "start from the final geometry of the archived record `ID` (unique prefix) instead of an XYZ file; recorded in the lineage")
 	maxForce := fs.Float64("max-force", engine.DefaultOpt.MaxForce, "optimisation: largest force limit (hartree/bohr); with the RMS force, step and energy-change limits")
 	maxSteps := fs.Int("max-steps", engine.DefaultOpt.MaxSteps, "optimisation: step limit")
+	relaxed := fs.String("relaxed-properties", "", "correlated methods: the level's dipole `ROUTE`: z-vector (MP2 family, its default), finite-field, or none (coupled cluster's default: the SCF dipole)")
+	fieldStep := fs.Float64("field-step", engine.DefaultFieldStepAU, "coupled cluster, finite-field route: field strength h (atomic units)")
+	fieldFormula := fs.String("field-formula", engine.DefaultFieldFormula, "coupled cluster, finite-field route: `FORMULA` two-point (E(±h)) or four-point (E(±h), E(±2h))")
+	ccETol := fs.Float64("cc-energy-tol", engine.DefaultCC.EnergyTolHartree, "coupled cluster: converged when |ΔE| < this (hartree) …")
+	ccATol := fs.Float64("cc-amplitude-tol", engine.DefaultCC.AmplitudeTol, "coupled cluster: … and the RMS amplitude change < this")
+	ccMaxIter := fs.Int("cc-max-iter", engine.DefaultCC.MaxIter, "coupled cluster: iteration limit")
 	gradMethod := fs.String("gradient", "", "optimisation gradients: analytic or finite-difference (default: analytic for HF and DFT, finite-difference for the MP2 family)")
 	pos, code, ok := parseFlags(fs, args)
 	if !ok {
@@ -112,14 +118,22 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 	scf.EnergyTolHartree, scf.DensityTol, scf.GradientTol = *eTol, *dTol, *gTol
 	scf.MaxIter, scf.Guess, scf.DIISSize, scf.SchwarzThreshold, scf.LevelShiftHartree = *maxIter, *guess, *diis, *schwarz, *shift
 	req := engine.Request{Molecule: m, Method: *method, Basis: *basisName, Task: *task, FrozenCore: *frozen,
-		SCF: &scf, Grid: *grid, Origin: &engine.OriginSpec{Kind: *origin}}
+		SCF: &scf, Grid: *grid, Origin: &engine.OriginSpec{Kind: *origin}, RelaxedProps: *relaxed}
+	if set["field-step"] || set["field-formula"] {
+		req.FieldStepAU, req.FieldFormula = *fieldStep, *fieldFormula
+	}
+	if set["cc-energy-tol"] || set["cc-amplitude-tol"] || set["cc-max-iter"] {
+		c := engine.DefaultCC
+		c.EnergyTolHartree, c.AmplitudeTol, c.MaxIter = *ccETol, *ccATol, *ccMaxIter
+		req.CC = &c
+	}
 	if set["max-force"] || set["max-steps"] || set["gradient"] {
 		o := engine.DefaultOpt
 		o.MaxForce, o.MaxSteps = *maxForce, *maxSteps
 		o.RMSForce = math.Min(o.RMSForce, *maxForce)
 		if *gradMethod != "" {
 			o.GradientMethod = *gradMethod
-		} else if info, ok := engine.Methods[strings.ToLower(*method)]; ok && info.Family == "mp2" {
+		} else if info, ok := engine.Methods[strings.ToLower(*method)]; ok && info.Correlated() {
 			o.GradientMethod = "finite-difference"
 		}
 		if o.GradientMethod == "finite-difference" {

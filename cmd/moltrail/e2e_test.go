@@ -180,7 +180,7 @@ func TestBadInput(t *testing.T) {
 		want string
 	}{
 		{[]string{"run", "--archive", arch, bad}, "bad.xyz:4"},
-		{[]string{"run", "--archive", arch, "--method", "ccsd", writeFile(t, dir, "h.xyz", h2XYZ)}, "ccsd"},
+		{[]string{"run", "--archive", arch, "--method", "cisd", writeFile(t, dir, "h.xyz", h2XYZ)}, "cisd"},
 		{[]string{"run", "--archive", arch, "--basis", "no-such-basis", filepath.Join(dir, "h.xyz")}, "no-such-basis"},
 		{[]string{"run", "--archive", arch, "--multiplicity", "2", filepath.Join(dir, "h.xyz")}, "multiplicity 2"},
 		{[]string{"show", "--archive", arch, "abcd"}, "no archive"},
