@@ -22,11 +22,16 @@
 // and primitive quartets below PrimitiveQuartetThreshold are dropped;
 // shell quartets with Q_ij·Q_kl below the Schwarz threshold
 // (DefaultSchwarzThreshold unless set) are skipped; J/K builds use the
-// 8-fold permutational symmetry of (ij|kl). The unique screened integrals
-// are stored (exact zeros left out) when they fit the memory budget;
-// otherwise each build recomputes them (direct mode) and also skips
-// quartets whose Schwarz bound times the largest density element they meet
-// is below the threshold.
+// 8-fold permutational symmetry of (ij|kl) and skip quartets whose Schwarz
+// bound times the largest density element they meet (for J alone: the
+// Coulomb elements) is below the threshold. The unique screened integrals
+// are stored, row by row either whole or as their non-zero values with
+// positions (whichever is smaller; at most 8 bytes per integral and 2 per
+// row, Stats.StoreBoundBytes), when they fit the memory budget; otherwise
+// each build recomputes them (direct mode). Both modes skip the same
+// quartets and contract the same values in the same order: a build gives
+// the same bits in core and direct, so the memory budget never changes a
+// number.
 //
 // Determinism: a J/K build is split into a fixed number of work units, each
 // with its own accumulators, summed in a fixed order, so the result has the

@@ -20,9 +20,10 @@ const numChunks = 32
 type chunk struct {
 	rows []int32
 	size int64 // integrals of the chunk's quartets
-	// In-core integrals in processing order, zeros left out: for each
-	// quartet and bra pair function, cnt non-zero values with their ket
-	// pair-function positions.
+	// In-core integrals in processing order (see pack): for each quartet
+	// and bra pair function a row of cnt values; a row of as many values
+	// as the ket has pair functions is dense, any other row lists its
+	// non-zero values with their ket pair-function positions in pos.
 	vals []float64
 	pos  []uint16
 	cnt  []uint16
@@ -34,6 +35,7 @@ type incore struct {
 	chunks   []*chunk
 	inCore   bool
 	stored   int64
+	bound    int64 // upper bound of the store's bytes: 8 per integral + 2 per row
 	unique   int64 // Schwarz-surviving unique quartets
 	screened int64 // quartets dropped by the Schwarz test
 	filled   bool
@@ -48,7 +50,8 @@ type Stats struct {
 	InCore               bool  // integrals stored (true) or recomputed per build
 	StoredIntegrals      int64
 	StoredBytes          int64
-	UniqueIntegralBytes  int64 // what storing all kept quartets would take
+	UniqueIntegralBytes  int64 // 8 bytes per integral of the kept quartets
+	StoreBoundBytes      int64 // the most the in-core store can take (compared with the budget)
 	QuartetsComputed     int64 // shell quartets evaluated so far (all calls)
 	DensityScreened      int64 // quartets skipped by density screening (direct mode)
 	JKBuilds             int64
@@ -75,10 +78,11 @@ func (e *ERI) Stats() Stats {
 	if st := e.store; st != nil {
 		s.UniqueQuartets, s.SchwarzScreened, s.InCore = st.unique, st.screened, st.inCore
 		s.UniqueIntegralBytes = 8 * st.stored
+		s.StoreBoundBytes = st.bound
 		if st.inCore && st.filled {
 			for _, c := range st.chunks {
 				s.StoredIntegrals += int64(len(c.vals))
-				s.StoredBytes += int64(10*len(c.vals) + 2*len(c.cnt))
+				s.StoredBytes += int64(8*len(c.vals) + 2*len(c.pos) + 2*len(c.cnt))
 			}
 		}
 		if tot := st.unique + st.screened; tot > 0 {
@@ -109,6 +113,7 @@ func (e *ERI) setup() {
 	st := &incore{}
 	rowCost := make([]float64, np)
 	rowVals := make([]int64, np)
+	var rows int64
 	for P := 0; P < np; P++ {
 		A := &e.pairs[P]
 		qp := e.schwarzP[P]
@@ -120,6 +125,7 @@ func (e *ERI) setup() {
 			B := &e.pairs[Q]
 			st.unique++
 			rowVals[P] += int64(A.ntot * B.ntot)
+			rows += int64(A.ntot)
 			rowCost[P] += quartetCost(A, B)
 		}
 	}
@@ -128,7 +134,8 @@ func (e *ERI) setup() {
 		total += v
 	}
 	st.stored = total
-	st.inCore = 8*total <= e.budget
+	st.bound = 8*total + 2*rows
+	st.inCore = st.bound <= e.budget
 	// Longest-processing-time assignment of rows to chunks, in a fixed order.
 	order := make([]int, np)
 	for i := range order {
@@ -196,10 +203,7 @@ func (e *ERI) JK(D []*mat.SymDense, wantK bool) (J, K []*mat.SymDense) {
 			mode = modeStore
 		}
 	}
-	var dmax []float64
-	if mode == modeDirect {
-		dmax = e.densityBlockMax(dens)
-	}
+	dmax := e.densityBlockMax(dens)
 	for _, c := range st.chunks {
 		c.jAcc = resize(c.jAcc, nd, n*n)
 		if wantK {
@@ -316,13 +320,20 @@ func (e *ERI) densityBlockMax(dens [][]float64) []float64 {
 	return out
 }
 
+// runChunk contracts the chunk's quartets with the densities. Every mode
+// skips the same quartets (Schwarz bound times the largest density element
+// the quartet meets below the threshold) and contracts the same integral
+// values in the same order, so in-core and direct builds have the same
+// bits; in-core the values are read from the store (modeReplay) or
+// computed and stored (modeStore, the first build), direct they are
+// computed each time.
 func (e *ERI) runChunk(c *chunk, mode int, dens [][]float64, dmax []float64, wantK bool, w *work) {
 	ns := len(e.groups)
-	var ov, oc int
+	var ov, op, oc int // replay offsets into vals, pos and cnt
 	if mode == modeStore {
-		c.vals = make([]float64, 0, c.size/2)
-		c.pos = make([]uint16, 0, c.size/2)
-		c.cnt = c.cnt[:0]
+		c.vals = make([]float64, 0, c.size)
+		c.pos = c.pos[:0]
+		c.cnt = make([]uint16, 0, c.rowsCount(e))
 	}
 	var computed, dskip int64
 	for _, P32 := range c.rows {
@@ -334,60 +345,103 @@ func (e *ERI) runChunk(c *chunk, mode int, dens [][]float64, dmax []float64, wan
 				continue
 			}
 			B := &e.pairs[Q]
-			nv := A.ntot * B.ntot
+			i, j, k, l := A.I, A.J, B.I, B.J
+			dm := 4 * math.Max(dmax[k*ns+l], dmax[i*ns+j])
+			if wantK {
+				dm = math.Max(dm, math.Max(math.Max(dmax[i*ns+k], dmax[i*ns+l]), math.Max(dmax[j*ns+k], dmax[j*ns+l])))
+			}
+			skip := qp*e.schwarzP[Q]*dm < e.thr
 			var vals []float64
 			var pos, cnt []uint16
 			switch mode {
 			case modeReplay:
 				cnt = c.cnt[oc : oc+A.ntot]
-				k := 0
-				for _, m := range cnt {
-					k += int(m)
-				}
-				vals, pos = c.vals[ov:ov+k], c.pos[ov:ov+k]
-				ov += k
+				nv, np := rowSizes(cnt, B.ntot)
+				vals, pos = c.vals[ov:ov+nv], c.pos[op:op+np]
+				ov += nv
+				op += np
 				oc += A.ntot
 			case modeStore:
-				blk := w.out[:nv]
+				blk := w.out[:A.ntot*B.ntot]
 				e.quartet(A, B, w, blk)
 				computed++
-				v0, c0 := len(c.vals), len(c.cnt)
+				v0, p0, c0 := len(c.vals), len(c.pos), len(c.cnt)
 				c.vals, c.pos, c.cnt = pack(blk, A.ntot, B.ntot, c.vals, c.pos, c.cnt)
-				vals, pos, cnt = c.vals[v0:], c.pos[v0:], c.cnt[c0:]
+				vals, pos, cnt = c.vals[v0:], c.pos[p0:], c.cnt[c0:]
 			default:
-				i, j, k, l := A.I, A.J, B.I, B.J
-				dm := 4 * dmax[k*ns+l]
-				dm = math.Max(dm, 4*dmax[i*ns+j])
-				dm = math.Max(dm, dmax[i*ns+k])
-				dm = math.Max(dm, dmax[i*ns+l])
-				dm = math.Max(dm, dmax[j*ns+k])
-				dm = math.Max(dm, dmax[j*ns+l])
-				if qp*e.schwarzP[Q]*dm < e.thr {
-					dskip++
-					continue
+				if skip {
+					break
 				}
-				blk := w.out[:nv]
+				blk := w.out[:A.ntot*B.ntot]
 				e.quartet(A, B, w, blk)
 				computed++
 				w.pv, w.pp, w.pc = pack(blk, A.ntot, B.ntot, w.pv[:0], w.pp[:0], w.pc[:0])
 				vals, pos, cnt = w.pv, w.pp, w.pc
 			}
+			if skip {
+				dskip++
+				continue
+			}
 			e.contract(A, B, P == Q, vals, pos, cnt, dens, c, wantK)
 		}
+	}
+	if mode == modeStore && cap(c.vals)-len(c.vals) > cap(c.vals)/8 {
+		c.vals = append(make([]float64, 0, len(c.vals)), c.vals...)
 	}
 	e.stats.computed.Add(computed)
 	e.stats.densitySkipped.Add(dskip)
 }
 
-// pack appends the non-zero elements of the nA×nB block row by row.
+// rowsCount is the number of stored rows of the chunk (bra pair functions
+// over its kept quartets).
+func (c *chunk) rowsCount(e *ERI) int {
+	n := 0
+	for _, P32 := range c.rows {
+		P := int(P32)
+		qp := e.schwarzP[P]
+		for Q := 0; Q <= P; Q++ {
+			if qp*e.schwarzP[Q] >= e.thr {
+				n += e.pairs[P].ntot
+			}
+		}
+	}
+	return n
+}
+
+// rowSizes is the number of values and of positions that the packed rows
+// with counts cnt take (see pack).
+func rowSizes(cnt []uint16, nB int) (nv, np int) {
+	for _, m := range cnt {
+		nv += int(m)
+		if int(m) != nB {
+			np += int(m)
+		}
+	}
+	return nv, np
+}
+
+// pack appends the nA×nB block row by row: a row goes in whole (count nB,
+// no positions) unless listing its non-zero values with a 2-byte position
+// each takes less room, i.e. unless 10 bytes per non-zero value come to
+// less than 8 per value of the whole row.
 func pack(blk []float64, nA, nB int, vals []float64, pos, cnt []uint16) ([]float64, []uint16, []uint16) {
 	for a := 0; a < nA; a++ {
+		row := blk[a*nB : (a+1)*nB]
 		k := 0
-		for b, v := range blk[a*nB : (a+1)*nB] {
+		for _, v := range row {
+			if v != 0 {
+				k++
+			}
+		}
+		if 10*k >= 8*nB {
+			vals = append(vals, row...)
+			cnt = append(cnt, uint16(nB))
+			continue
+		}
+		for b, v := range row {
 			if v != 0 {
 				vals = append(vals, v)
 				pos = append(pos, uint16(b))
-				k++
 			}
 		}
 		cnt = append(cnt, uint16(k))
@@ -397,7 +451,8 @@ func pack(blk []float64, nA, nB int, vals []float64, pos, cnt []uint16) ([]float
 
 // contract adds one unique quartet's contributions (scaled for its
 // degeneracy) to the chunk's accumulators: A[μν] += v D[λσ], A[λσ] += v D[μν]
-// for J = 2(A+Aᵀ), and the four K terms for K = B+Bᵀ.
+// for J = 2(A+Aᵀ), and the four K terms for K = B+Bᵀ. The rows are packed
+// as pack writes them.
 func (e *ERI) contract(A, B *pairData, samePair bool, vals []float64, pos, cnt []uint16, dens [][]float64, c *chunk, wantK bool) {
 	n := e.mb.NBasis
 	deg := 1.0
@@ -411,45 +466,74 @@ func (e *ERI) contract(A, B *pairData, samePair bool, vals []float64, pos, cnt [
 		deg *= 0.5
 	}
 	lam, sig := B.mu, B.nu
+	nB := B.ntot
 	for d, D := range dens {
 		ja := c.jAcc[d]
 		var ka []float64
 		if wantK {
 			ka = c.kAcc[d]
 		}
-		o := 0
+		o, op := 0, 0
 		for pa := 0; pa < A.ntot; pa++ {
 			k := int(cnt[pa])
-			row, rpos := vals[o:o+k], pos[o:o+k]
+			row := vals[o : o+k]
 			o += k
 			if k == 0 {
 				continue
 			}
+			var rpos []uint16
+			if k != nB {
+				rpos = pos[op : op+k]
+				op += k
+			}
 			mu, nu := int(A.mu[pa]), int(A.nu[pa])
 			dmn := deg * D[mu*n+nu]
-			dMu, dNu := D[mu*n:(mu+1)*n], D[nu*n:(nu+1)*n]
 			jmn := 0.0
 			if !wantK {
+				if rpos == nil {
+					lr, sr := lam[:len(row)], sig[:len(row)]
+					for t, v := range row {
+						l, s := int(lr[t]), int(sr[t])
+						jmn += v * D[l*n+s]
+						ja[l*n+s] += v * dmn
+					}
+				} else {
+					for t, v := range row {
+						pb := rpos[t]
+						l, s := int(lam[pb]), int(sig[pb])
+						jmn += v * D[l*n+s]
+						ja[l*n+s] += v * dmn
+					}
+				}
+				ja[mu*n+nu] += deg * jmn
+				continue
+			}
+			dMu, dNu := D[mu*n:(mu+1)*n], D[nu*n:(nu+1)*n]
+			kMu, kNu := ka[mu*n:(mu+1)*n], ka[nu*n:(nu+1)*n]
+			if rpos == nil {
+				lr, sr := lam[:len(row)], sig[:len(row)]
+				for t, v := range row {
+					l, s := int(lr[t]), int(sr[t])
+					jmn += v * D[l*n+s]
+					ja[l*n+s] += v * dmn
+					vd := deg * v
+					kMu[l] += vd * dNu[s]
+					kNu[l] += vd * dMu[s]
+					kMu[s] += vd * dNu[l]
+					kNu[s] += vd * dMu[l]
+				}
+			} else {
 				for t, v := range row {
 					pb := rpos[t]
 					l, s := int(lam[pb]), int(sig[pb])
 					jmn += v * D[l*n+s]
 					ja[l*n+s] += v * dmn
+					vd := deg * v
+					kMu[l] += vd * dNu[s]
+					kNu[l] += vd * dMu[s]
+					kMu[s] += vd * dNu[l]
+					kNu[s] += vd * dMu[l]
 				}
-				ja[mu*n+nu] += deg * jmn
-				continue
-			}
-			kMu, kNu := ka[mu*n:(mu+1)*n], ka[nu*n:(nu+1)*n]
-			for t, v := range row {
-				pb := rpos[t]
-				l, s := int(lam[pb]), int(sig[pb])
-				jmn += v * D[l*n+s]
-				ja[l*n+s] += v * dmn
-				vd := deg * v
-				kMu[l] += vd * dNu[s]
-				kNu[l] += vd * dMu[s]
-				kMu[s] += vd * dNu[l]
-				kNu[s] += vd * dMu[l]
 			}
 			ja[mu*n+nu] += deg * jmn
 		}

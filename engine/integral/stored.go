@@ -16,19 +16,19 @@ type PairClass struct {
 }
 
 // storedBlock locates one stored block: its chunk (−1 when the block is
-// dropped by the Schwarz test) and the offsets of its row counts and
-// packed values there.
+// dropped by the Schwarz test) and the offsets of its row counts, packed
+// values and positions there.
 type storedBlock struct {
-	chunk  int32
-	c0, v0 int64
+	chunk      int32
+	c0, v0, p0 int64
 }
 
 // Blocks gives the integrals by blocks (P|Q) of pair classes:
 // Fill(P, Q) writes (ab|cd) for every pair function ab of P and cd of Q
 // (a block (P|P) thus holds both (ab|cd) and (cd|ab)). Kept says which
 // blocks survive the Schwarz test; the others are zero to the threshold.
-// The values are read from the in-core store (StoredBlocks; exact zeros
-// are not stored and fill as 0) or computed on each Fill
+// The values are read from the in-core store (StoredBlocks; the exact
+// zeros it leaves out fill as 0) or computed on each Fill
 // (ComputedBlocks), with the same bits either way. All methods are safe
 // for concurrent use, also alongside J/K builds of the engine.
 type Blocks struct {
@@ -71,7 +71,7 @@ func (e *ERI) StoredBlocks() *Blocks {
 		s.vals = append(s.vals, c.vals)
 		s.pos = append(s.pos, c.pos)
 		s.cnt = append(s.cnt, c.cnt)
-		var ov, oc int64
+		var ov, op, oc int64
 		for _, P32 := range c.rows {
 			P := int(P32)
 			A := &e.pairs[P]
@@ -80,10 +80,10 @@ func (e *ERI) StoredBlocks() *Blocks {
 				if qp*e.schwarzP[Q] < e.thr {
 					continue
 				}
-				s.at[pairIndex(P, Q)] = storedBlock{chunk: int32(ci), c0: oc, v0: ov}
-				for _, m := range c.cnt[oc : oc+int64(A.ntot)] {
-					ov += int64(m)
-				}
+				s.at[pairIndex(P, Q)] = storedBlock{chunk: int32(ci), c0: oc, v0: ov, p0: op}
+				nv, np := rowSizes(c.cnt[oc:oc+int64(A.ntot)], e.pairs[Q].ntot)
+				ov += int64(nv)
+				op += int64(np)
 				oc += int64(A.ntot)
 			}
 		}
@@ -162,23 +162,37 @@ func (s *Blocks) Fill(P, Q int, out []float64) {
 		out[i] = 0
 	}
 	b := s.at[pairIndex(P, Q)]
-	vals, pos := s.vals[b.chunk][b.v0:], s.pos[b.chunk][b.v0:]
+	vals, pos := s.vals[b.chunk][b.v0:], s.pos[b.chunk][b.p0:]
 	if P < Q { // stored as (Q|P): write its transpose
-		o := 0
+		o, op := 0, 0
 		for g, m := range s.cnt[b.chunk][b.c0 : b.c0+int64(nq)] {
-			for t, v := range vals[o : o+int(m)] {
-				out[int(pos[o+t])*nq+g] = v
-			}
+			row := vals[o : o+int(m)]
 			o += int(m)
+			if int(m) == np { // a whole row
+				for f, v := range row {
+					out[f*nq+g] = v
+				}
+				continue
+			}
+			for t, v := range row {
+				out[int(pos[op+t])*nq+g] = v
+			}
+			op += int(m)
 		}
 		return
 	}
-	o := 0
+	o, op := 0, 0
 	for f, m := range s.cnt[b.chunk][b.c0 : b.c0+int64(np)] {
 		row := out[f*nq : (f+1)*nq]
-		for t, v := range vals[o : o+int(m)] {
-			row[pos[o+t]] = v
-		}
+		src := vals[o : o+int(m)]
 		o += int(m)
+		if int(m) == nq {
+			copy(row, src)
+			continue
+		}
+		for t, v := range src {
+			row[pos[op+t]] = v
+		}
+		op += int(m)
 	}
 }

@@ -146,35 +146,40 @@ func TestHydrogenAtom(t *testing.T) {
 }
 
 // TestIncrementalJK: with a linear stand-in for the integral engine
-// (J = 2D, K = −D) the incremental builds reproduce full builds, and an
-// in-core engine is never given density differences.
+// (J = 2D, K = −D) the incremental builds reproduce full builds; builds
+// after the first get density differences, and every rebuildEvery-th
+// build and every change of request shape gets the full density.
 func TestIncrementalJK(t *testing.T) {
-	for _, direct := range []bool{false, true} {
-		var seen []float64
-		full := func(d []*mat.SymDense, wantK bool) (j, k []*mat.SymDense) {
-			for _, x := range d {
-				seen = append(seen, x.At(0, 0))
-				a, b := mat.NewSymDense(2, nil), mat.NewSymDense(2, nil)
-				a.ScaleSym(2, x)
-				b.ScaleSym(-1, x)
-				j, k = append(j, a), append(k, b)
-			}
-			return j, k
+	var seen []float64
+	full := func(d []*mat.SymDense, wantK bool) (j, k []*mat.SymDense) {
+		for _, x := range d {
+			seen = append(seen, x.At(0, 0))
+			a, b := mat.NewSymDense(2, nil), mat.NewSymDense(2, nil)
+			a.ScaleSym(2, x)
+			b.ScaleSym(-1, x)
+			j, k = append(j, a), append(k, b)
 		}
-		inc := &incrementalJK{full: full, direct: func() bool { return direct }}
-		for step := 1; step <= 12; step++ {
-			d := mat.NewSymDense(2, []float64{float64(step), 0.5, 0.5, 1 / float64(step)})
-			j, k := inc.build([]*mat.SymDense{d}, true)
-			if math.Abs(j[0].At(1, 1)-2/float64(step)) > 1e-14 || math.Abs(k[0].At(0, 0)+float64(step)) > 1e-14 {
-				t.Fatalf("direct=%v step %d: J %v K %v", direct, step, mat.Formatted(j[0]), mat.Formatted(k[0]))
-			}
-			if want := float64(step); !direct && seen[step-1] != want {
-				t.Fatalf("in-core engine got density element %g at step %d, want the full %g", seen[step-1], step, want)
-			}
+		return j, k
+	}
+	inc := &incrementalJK{full: full}
+	for step := 1; step <= 12; step++ {
+		d := mat.NewSymDense(2, []float64{float64(step), 0.5, 0.5, 1 / float64(step)})
+		j, k := inc.build([]*mat.SymDense{d}, true)
+		if math.Abs(j[0].At(1, 1)-2/float64(step)) > 1e-14 || math.Abs(k[0].At(0, 0)+float64(step)) > 1e-14 {
+			t.Fatalf("step %d: J %v K %v", step, mat.Formatted(j[0]), mat.Formatted(k[0]))
 		}
-		if direct && seen[1] != 1 {
-			t.Errorf("direct: second build used %g, want the difference 1", seen[1])
+		want := 1.0 // the difference from the previous step
+		if step == 1 || step == 2+rebuildEvery {
+			want = float64(step)
 		}
+		if seen[step-1] != want {
+			t.Fatalf("step %d: the engine got density element %g, want %g", step, seen[step-1], want)
+		}
+	}
+	d := mat.NewSymDense(2, []float64{20, 0.5, 0.5, 1})
+	inc.build([]*mat.SymDense{d}, false)
+	if got := seen[len(seen)-1]; got != 20 {
+		t.Errorf("a Coulomb-only request after exchange builds got %g, want the full density 20", got)
 	}
 }
 

@@ -62,10 +62,9 @@
 // orbitals are eigenvectors of the last (unextrapolated, unshifted) Fock
 // matrix, and Da, Db are built from them; Energy is Ek.
 //
-// When the integral engine runs direct (integrals recomputed at every
-// build), J and K are built from the density change since the previous
-// build, with a full build every few iterations; in-core they are always
-// built from the full density.
+// J and K are built from the density change since the previous build,
+// with a full build every few iterations, whether the integrals are held
+// in memory or recomputed at every build (the two give the same bits).
 //
 // Non-convergence within MaxIter is a result (Converged false, with the
 // history), not an error. All reductions run in a fixed order, so the same

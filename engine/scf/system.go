@@ -36,21 +36,20 @@ func newSystem(m *molecule.Molecule, mb *basis.Molecular, threads int, schwarz f
 			return nil, fmt.Errorf("scf: electron-repulsion integrals: %v", err)
 		}
 	}
-	inc := &incrementalJK{full: eri.JK, direct: func() bool { return !eri.Stats().InCore }}
+	inc := &incrementalJK{full: eri.JK}
 	return &system{s: s, h: h, enuc: m.NuclearRepulsion(), eri: eri, jk: inc.build}, nil
 }
 
-// incrementalJK builds J and K in direct mode (known after the first
-// build) from the change of the
-// density since the previous build, J[D] = J[D_prev] + J[D − D_prev]
-// (likewise K): the integral engine's density screening then skips most
-// quartets once the iterations settle. Every rebuildEvery builds, or when
-// the request changes shape, J and K are built from the full density so
-// that screening errors cannot accumulate.
+// incrementalJK builds J and K from the change of the density since the
+// previous build, J[D] = J[D_prev] + J[D − D_prev] (likewise K): the
+// integral engine's density screening then skips most quartets once the
+// iterations settle. Every rebuildEvery builds, or when the request
+// changes shape, J and K are built from the full density so that
+// screening errors cannot accumulate. The same sequence of builds is made
+// whether the integrals are held in memory or recomputed, and the engine
+// gives the same bits either way.
 type incrementalJK struct {
 	full     func(d []*mat.SymDense, wantK bool) (j, k []*mat.SymDense)
-	direct   func() bool
-	inCore   bool // the integrals are stored: plain full builds
 	d, j, k  []*mat.SymDense
 	wantK    bool
 	sinceAll int
@@ -59,19 +58,7 @@ type incrementalJK struct {
 const rebuildEvery = 8
 
 func (c *incrementalJK) build(d []*mat.SymDense, wantK bool) ([]*mat.SymDense, []*mat.SymDense) {
-	if c.inCore {
-		return c.full(d, wantK)
-	}
-	if c.d == nil {
-		j, k := c.full(d, wantK)
-		if !c.direct() {
-			c.inCore = true
-			return j, k
-		}
-		c.keep(d, j, k, wantK)
-		return j, k
-	}
-	if len(c.d) != len(d) || c.wantK != wantK || c.sinceAll >= rebuildEvery {
+	if c.d == nil || len(c.d) != len(d) || c.wantK != wantK || c.sinceAll >= rebuildEvery {
 		j, k := c.full(d, wantK)
 		c.keep(d, j, k, wantK)
 		c.sinceAll = 0
