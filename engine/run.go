@@ -24,6 +24,9 @@ type RunOptions struct {
 	Threads int
 	// Progress receives human-readable progress lines (nil = silent).
 	Progress io.Writer
+	// MemoryLimitBytes is the memory the job may use (0 =
+	// DefaultMemoryLimitBytes); see memory.go: it never changes a number.
+	MemoryLimitBytes int64
 }
 
 func (o RunOptions) threads() int {
@@ -89,7 +92,8 @@ func single(job *Job, mol *molecule.Molecule, set *basis.Set, o RunOptions, with
 	return p.res, nil
 }
 
-func scfOptions(job *Job, o RunOptions) scf.Options {
+// scfOptions are the SCF settings of a job on n basis functions.
+func scfOptions(job *Job, o RunOptions, n int) scf.Options {
 	s := job.SCF
 	return scf.Options{
 		Reference:         job.Reference,
@@ -102,6 +106,7 @@ func scfOptions(job *Job, o RunOptions) scf.Options {
 		SchwarzThreshold:  s.SchwarzThreshold,
 		LevelShiftHartree: s.LevelShiftHartree,
 		Threads:           o.threads(),
+		MemoryBudgetBytes: o.memory().integrals(n, 0),
 	}
 }
 
@@ -111,7 +116,7 @@ func compute(job *Job, mol *molecule.Molecule, set *basis.Set, o RunOptions, wit
 		return nil, err
 	}
 	info := Methods[job.Method]
-	so := scfOptions(job, o)
+	so := scfOptions(job, o, mb.NBasis)
 	if info.Family == "dft" {
 		xc, err := newXC(job, mol, mb, o)
 		if err != nil {
@@ -125,6 +130,9 @@ func compute(job *Job, mol *molecule.Molecule, set *basis.Set, o RunOptions, wit
 	sr, err := scf.Run(mol, mb, so)
 	if err != nil {
 		return nil, err
+	}
+	if sr.ERI != nil {
+		o.logf("  two-electron integrals: %s\n", integralMode(sr.ERI.Stats()))
 	}
 	res := &Result{
 		Status:                  StatusConverged,
@@ -296,7 +304,8 @@ func runOptimize(job *Job, mol *molecule.Molecule, set *basis.Set, o RunOptions)
 	os := *job.Opt
 	energyAt := func(x []float64) (float64, error) {
 		m := opt.WithCoordinates(mol, x)
-		r, err := single(job, m, set, RunOptions{Threads: 1}, false)
+		// the finite-difference energies run o.threads() at a time
+		r, err := single(job, m, set, RunOptions{Threads: 1, MemoryLimitBytes: o.memory().limit / int64(o.threads())}, false)
 		if err != nil {
 			return 0, err
 		}

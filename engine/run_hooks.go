@@ -34,9 +34,10 @@ func correlate(job *Job, mol *molecule.Molecule, mb *basis.Molecular, sr *scf.Re
 	cs := job.Correlation
 	relaxed := withProps && cs.RelaxedProperties == "z-vector"
 	o.logf("  %s: transforming integrals (%d basis functions)\n", job.Method, mb.NBasis)
-	r, err := mp2.Run(mol, mb, sr, mp2.Options{FrozenCore: cs.FrozenCore, Relaxed: relaxed, SameSpinScale: info.SameSpin, OppositeSpinScale: info.OppositeSpin, Threads: o.threads()})
+	budget := o.memory().correlated(mb.NBasis, sr.ERI.Stats().StoredBytes)
+	r, err := mp2.Run(mol, mb, sr, mp2.Options{FrozenCore: cs.FrozenCore, Relaxed: relaxed, SameSpinScale: info.SameSpin, OppositeSpinScale: info.OppositeSpin, Threads: o.threads(), MemoryBudgetBytes: budget})
 	if err != nil {
-		return err
+		return fmt.Errorf("%v (the job's memory limit is %s)", err, FormatMemorySize(o.memory().limit))
 	}
 	ec := r.ScaledCorrelationHartree(info.SameSpin, info.OppositeSpin)
 	res.CorrelationEnergyHartree = &ec
@@ -64,9 +65,9 @@ func correlate(job *Job, mol *molecule.Molecule, mb *basis.Molecular, sr *scf.Re
 		d, q := pr.DipoleDebye, pr.QuadrupoleBuckingham
 		res.DipoleDebye, res.QuadrupoleBuckingham = &d, &q
 	case "finite-field":
-		so := scfOptions(job, o)
+		so := scfOptions(job, o, mb.NBasis)
 		so.ERI = sr.ERI
-		fd, err := mp2.FiniteFieldDipole(mol, mb, so, mp2.Options{FrozenCore: cs.FrozenCore, Threads: o.threads()}, info.SameSpin, info.OppositeSpin, cs.FieldStepAU, origin)
+		fd, err := mp2.FiniteFieldDipole(mol, mb, so, mp2.Options{FrozenCore: cs.FrozenCore, Threads: o.threads(), MemoryBudgetBytes: budget}, info.SameSpin, info.OppositeSpin, cs.FieldStepAU, origin)
 		if err != nil {
 			return err
 		}
@@ -110,7 +111,7 @@ func gradient(job *Job, mol *molecule.Molecule, set *basis.Set, o RunOptions) (f
 	if err != nil {
 		return 0, nil, err
 	}
-	so := scfOptions(job, o)
+	so := scfOptions(job, o, mb.NBasis)
 	var xcg grad.XCGradient
 	if info.Family == "dft" {
 		xc, err := newXC(job, mol, mb, o)

@@ -52,6 +52,10 @@ type File struct {
 	// built-in set name, "builtin", or a file path relative to the study file.
 	ReferenceSet string          `json:"reference_set,omitempty"`
 	Report       *ReportSettings `json:"report,omitempty"`
+	// MemoryLimit is the memory each calculation may use ("6GiB", "800MB";
+	// see engine.ParseMemorySize); empty = the engine's default shared among
+	// the calculations run at once. It never changes a number.
+	MemoryLimit string `json:"memory_limit,omitempty"`
 }
 
 // MoleculeEntry is one molecule: an XYZ file (path relative to the study
@@ -144,9 +148,11 @@ type Study struct {
 	Origin string
 	// Dir is the directory relative paths are resolved against ("" for
 	// embedded studies).
-	Dir       string
-	molecules []*Molecule
-	levels    []*Level
+	Dir string
+	// MemoryLimitBytes is MemoryLimit read (0 when not given).
+	MemoryLimitBytes int64
+	molecules        []*Molecule
+	levels           []*Level
 }
 
 // Molecule is one molecule of a study, ready for the engine.
@@ -253,6 +259,13 @@ func (s *Study) build(read Reader) error {
 	}
 	if strings.TrimSpace(s.Name) == "" {
 		return fmt.Errorf("name is empty")
+	}
+	if s.MemoryLimit != "" {
+		b, err := engine.ParseMemorySize(s.MemoryLimit)
+		if err != nil {
+			return fmt.Errorf("memory_limit: %v", err)
+		}
+		s.MemoryLimitBytes = b
 	}
 	names := map[string]int{}
 	for i, e := range s.File.Molecules {

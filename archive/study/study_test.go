@@ -79,6 +79,7 @@ func TestParseErrors(t *testing.T) {
 		{"unknown level in task", base(`[{"method":"hf","basis":"sto-3g"}]`, `[{"task":"energy","levels":["mp2/sto-3g"]}]`), `tasks[0]: level "mp2/sto-3g" is not defined (levels: hf/sto-3g)`},
 		{"unknown molecule in task", base(`[{"method":"hf","basis":"sto-3g"}]`, `[{"task":"energy","molecules":["water"]}]`), `molecule "water" is not in the study (molecules: dihydrogen)`},
 		{"own geometry", base(`[{"method":"hf","basis":"sto-3g"}]`, `[{"task":"optimize","geometry_from":"hf/sto-3g"}]`), "cannot start from its own optimised geometry"},
+		{"memory limit without unit", `{"format":"moltrail-study/1","name":"x","memory_limit":"8","molecules":[{"file":"h2.xyz"}],"levels":[{"method":"hf","basis":"sto-3g"}],"tasks":[{"task":"energy"}]}`, `memory_limit: memory size "8" needs a unit`},
 		{"bad scf value", base(`[{"method":"hf","basis":"sto-3g","scf":{"max_iterations":0}}]`, `[{"task":"energy"}]`), "schemas/study.schema.json"},
 	}
 	for _, c := range cases {
@@ -94,6 +95,17 @@ func TestParseErrors(t *testing.T) {
 				t.Fatalf("error %q does not name the file", err)
 			}
 		})
+	}
+}
+
+func TestMemoryLimitSetting(t *testing.T) {
+	src := strings.Replace(studyJSON, `"format": "moltrail-study/1",`, `"format": "moltrail-study/1", "memory_limit": "6 GiB",`, 1)
+	s, err := Parse([]byte(src), "test.json", files(map[string]string{"h2.xyz": h2XYZ}))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if s.MemoryLimitBytes != 6<<30 {
+		t.Errorf("memory limit %d bytes, want 6 GiB", s.MemoryLimitBytes)
 	}
 }
 

@@ -20,9 +20,33 @@ func init() {
 	register(Command{Name: "run", Summary: "run one calculation and store it (or return the stored one)", Run: cmdRun})
 }
 
-// engineCompute is the archive's Computer backed by the engine.
-func engineCompute(job *engine.Job, threads int, progress io.Writer) (*engine.Result, error) {
-	return engine.Run(job, engine.RunOptions{Threads: threads, Progress: progress})
+// engineCompute is the archive's Computer backed by the engine, with the
+// engine's default memory limit.
+var engineCompute = engineComputer(0)
+
+// engineComputer is the archive's Computer backed by the engine, each
+// calculation limited to memoryBytes (0 = the engine's default).
+func engineComputer(memoryBytes int64) archive.Computer {
+	return func(job *engine.Job, threads int, progress io.Writer) (*engine.Result, error) {
+		return engine.Run(job, engine.RunOptions{Threads: threads, Progress: progress, MemoryLimitBytes: memoryBytes})
+	}
+}
+
+// addMemoryFlag adds --memory-limit to a command that computes.
+func addMemoryFlag(fs *flag.FlagSet) *string {
+	return fs.String("memory-limit", "", "memory `SIZE` each calculation may use, e.g. 6GiB or 800MB (default: half the memory the system reports available, shared among calculations run at once); never changes a number")
+}
+
+// memoryLimit reads the --memory-limit value (0 when not given).
+func memoryLimit(s string) (int64, error) {
+	if s == "" {
+		return 0, nil
+	}
+	b, err := engine.ParseMemorySize(s)
+	if err != nil {
+		return 0, fmt.Errorf("--memory-limit: %v", err)
+	}
+	return b, nil
 }
 
 func cmdRun(args []string, stdout, stderr io.Writer) int {
@@ -42,6 +66,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 	cart := fs.Bool("cartesian", false, "Cartesian d, f, … functions")
 	sph := fs.Bool("spherical", false, "spherical-harmonic d, f, … functions")
 	threads := fs.Int("threads", 0, "worker threads (0 = all cores); never changes a number")
+	memFlag := addMemoryFlag(fs)
 	eTol := fs.Float64("energy-tol", engine.DefaultSCF.EnergyTolHartree, "SCF: converged when |ΔE| < this (hartree) …")
 	dTol := fs.Float64("density-tol", engine.DefaultSCF.DensityTol, "SCF: … and RMS density change < this …")
 	gTol := fs.Float64("gradient-tol", engine.DefaultSCF.GradientTol, "SCF: … and max |FDS−SDF| < this")
@@ -84,6 +109,10 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 	}
 	if *threads < 0 {
 		return fail(stderr, exitUsage, "run", fmt.Errorf("--threads %d: give 0 (all cores) or more", *threads))
+	}
+	memBytes, err := memoryLimit(*memFlag)
+	if err != nil {
+		return fail(stderr, exitUsage, "run", err)
 	}
 	set := map[string]bool{}
 	fs.Visit(func(f *flag.Flag) { set[f.Name] = true })
@@ -152,7 +181,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 		return fail(stderr, exitUsage, "run", fmt.Errorf("%s: %v", source, err))
 	}
 	out, err := archive.RunAndStore(af.path(), archive.RunRequest{Job: job, Tags: tagMap, Force: *force, Lineage: lineage,
-		Threads: *threads, Wait: af.waitOrNone(), Log: stderr}, engineCompute)
+		Threads: *threads, Wait: af.waitOrNone(), Log: stderr}, engineComputer(memBytes))
 	if err != nil {
 		return fail(stderr, archiveErrCode(err), "run", err)
 	}

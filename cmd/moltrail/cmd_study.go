@@ -20,6 +20,7 @@ import (
 	"moltrail/archive"
 	"moltrail/archive/study"
 	"moltrail/compare"
+	"moltrail/engine"
 	"moltrail/report"
 )
 
@@ -36,6 +37,9 @@ again, and a level added to the file later runs only the new items.
 
 Cores: --jobs N calculations run at once, each with max(1, cores/N)
 threads (--threads overrides); thread counts never change a number.
+Memory: each calculation may use the study's memory_limit (--memory-limit
+overrides), by default half the available memory divided by N; the limit
+never changes a number either.
 Ctrl-C once: no new calculation starts, the running ones finish and are
 stored. Ctrl-C twice: the running ones are abandoned (nothing half-stored).
 
@@ -50,6 +54,7 @@ type studyRun struct {
 	wait      time.Duration
 	jobs      int
 	threads   int
+	memory    int64 // per calculation; 0 = the engine's default over jobs
 	retry     bool
 	reportOut string
 	refs      string
@@ -66,6 +71,7 @@ func cmdStudy(args []string, stdout, stderr io.Writer) int {
 	reportOut := fs.String("report", "", "after the run, write the supplementary-information PDF over exactly the study's records (overrides the study's report.output)")
 	refs := fs.String("refs", "", "reference set for --report: builtin, a built-in set name ("+strings.Join(compare.BuiltinNames(), ", ")+") or a file (default: the study's reference_set, else builtin)")
 	retry := fs.Bool("retry-failed", false, "compute again the items whose stored record failed or did not converge")
+	memFlag := addMemoryFlag(fs)
 	pos, code, ok := parseFlags(fs, args)
 	if !ok {
 		return code
@@ -82,15 +88,22 @@ func cmdStudy(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintf(stderr, "moltrail study: --threads %d is negative\n", *threads)
 		return exitUsage
 	}
+	memBytes, err := memoryLimit(*memFlag)
+	if err != nil {
+		return fail(stderr, exitUsage, "study", err)
+	}
 	st, err := study.Load(pos[0])
 	if err != nil {
 		return fail(stderr, exitUsage, "study", err)
+	}
+	if memBytes == 0 {
+		memBytes = st.MemoryLimitBytes
 	}
 	plan, err := st.Plan()
 	if err != nil {
 		return fail(stderr, exitUsage, "study", err)
 	}
-	r := studyRun{cmd: "study", archive: af.path(), wait: af.waitOrNone(), jobs: *jobs, threads: *threads, retry: *retry}
+	r := studyRun{cmd: "study", archive: af.path(), wait: af.waitOrNone(), jobs: *jobs, threads: *threads, memory: memBytes, retry: *retry}
 	r.refs = *refs
 	if r.refs == "" {
 		r.refs = studyRefs(st)
@@ -207,7 +220,7 @@ func runStudy(plan *study.Plan, r studyRun, stderr io.Writer) (*study.Summary, i
 		}
 	}()
 	sum, err := study.Run(ctx, plan, study.Options{Archive: r.archive, Jobs: r.jobs, Threads: r.threads, Wait: r.wait,
-		Compute: engineCompute, RetryFailed: r.retry, Events: pr.event, Abandon: abandon})
+		Compute: engineComputer(r.memoryPerCalculation()), RetryFailed: r.retry, Events: pr.event, Abandon: abandon})
 	pr.close()
 	if err != nil {
 		return nil, fail(stderr, exitFailed, r.cmd, err)
@@ -216,6 +229,15 @@ func runStudy(plan *study.Plan, r studyRun, stderr io.Writer) (*study.Summary, i
 		fmt.Fprintf(stderr, "moltrail %s: stopped with %d items still to do; run the same command again to finish them (nothing stored is computed again)\n", r.cmd, sum.Counts.Pending)
 	}
 	return sum, exitOK
+}
+
+// memoryPerCalculation is the memory limit of each calculation: the one
+// given, else the engine's default shared among the jobs run at once.
+func (r studyRun) memoryPerCalculation() int64 {
+	if r.memory > 0 {
+		return r.memory
+	}
+	return max(engine.DefaultMemoryLimitBytes()/int64(max(r.jobs, 1)), engine.MinMemoryLimitBytes)
 }
 
 // studyProgress shows a run's progress: a bar on a terminal, one line per

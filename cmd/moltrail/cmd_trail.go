@@ -21,10 +21,15 @@ func cmdReproduce(args []string, stdout, stderr io.Writer) int {
 	ff := addFilterFlags(fs)
 	all := fs.Bool("all", false, "reproduce every record matching the filters")
 	threads := fs.Int("threads", 0, "worker threads (0 = all cores)")
+	memFlag := addMemoryFlag(fs)
 	asJSON := fs.Bool("json", false, "print the outcome as JSON (an object for one ID, an array with --all)")
 	pos, code, ok := parseFlags(fs, args)
 	if !ok {
 		return code
+	}
+	memBytes, err := memoryLimit(*memFlag)
+	if err != nil {
+		return fail(stderr, exitUsage, "reproduce", err)
 	}
 	if (*all) == (len(pos) == 1) || len(pos) > 1 {
 		fmt.Fprintln(stderr, "moltrail reproduce: give one record id, or --all with optional filters")
@@ -61,7 +66,7 @@ func cmdReproduce(args []string, stdout, stderr io.Writer) int {
 	var reps []*archive.Reproduction
 	bad := 0
 	for _, id := range ids {
-		rep, err := archive.Reproduce(af.path(), id, archive.RunRequest{Threads: *threads, Wait: af.waitOrNone(), Log: stderr}, engineCompute)
+		rep, err := archive.Reproduce(af.path(), id, archive.RunRequest{Threads: *threads, Wait: af.waitOrNone(), Log: stderr}, engineComputer(memBytes))
 		if err != nil {
 			return fail(stderr, exitFailed, "reproduce", fmt.Errorf("record %s: %v", id[:12], err))
 		}

@@ -103,6 +103,8 @@ func TestBadInputContract(t *testing.T) {
 		{"unknown task", []string{"run", "--archive", fresh, "--task", "freq", f.xyz}, `task "freq" is not known`},
 		{"frozen core with hf", []string{"run", "--archive", fresh, "--frozen-core", f.xyz}, "frozen core applies to correlated methods"},
 		{"negative threads", []string{"run", "--archive", fresh, "--threads", "-1", f.xyz}, "--threads -1"},
+		{"memory limit without unit", []string{"run", "--archive", fresh, "--memory-limit", "4", f.xyz}, `--memory-limit: memory size "4" needs a unit`},
+		{"study memory limit too small", []string{"study", "--archive", fresh, "--memory-limit", "1MiB", f.xyz}, `--memory-limit: memory size "1MiB" is below the smallest limit`},
 		{"bad tag", []string{"run", "--archive", fresh, "--tag", "novalue", f.xyz}, `--tag "novalue" must be KEY=VALUE`},
 		{"two molecule files", []string{"run", "--archive", fresh, f.xyz, f.xyz}, "give exactly one molecule file"},
 		{"cartesian and spherical", []string{"run", "--archive", fresh, "--cartesian", "--spherical", f.xyz}, "exclude each other"},
