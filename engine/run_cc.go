@@ -155,7 +155,7 @@ var (
 func ccFieldDipole(job *Job, mol *molecule.Molecule, mb *basis.Molecular, sr *scf.Result, o RunOptions, origin [3]float64) (*Properties, error) {
 	cs := job.Correlation
 	dip, _ := integral.Multipole(mb, origin)
-	so := scfOptions(job, o)
+	so := scfOptions(job, o, mb.NBasis)
 	so.ERI = sr.ERI
 	so.EnergyTolHartree = math.Min(so.EnergyTolHartree, FieldSCFTight.EnergyTolHartree)
 	so.DensityTol = math.Min(so.DensityTol, FieldSCFTight.DensityTol)
