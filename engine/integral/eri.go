@@ -179,34 +179,8 @@ func NewERI(mb *basis.Molecular, opt Options) (*ERI, error) {
 	}
 	boysOnce.Do(initBoys)
 	ns := len(mb.Shells)
-	e.shellGrp = make([]int, ns)
-	e.shellMem = make([]int, ns)
-	for i := range mb.Shells {
-		sh := &mb.Shells[i]
-		g := -1
-		for k := range e.groups {
-			if sameShellShape(e.groups[k].shell, sh) {
-				g = k
-				break
-			}
-		}
-		if g < 0 {
-			g = len(e.groups)
-			e.groups = append(e.groups, group{l: sh.L, nf: sh.NFunc(), shell: sh})
-		}
-		gr := &e.groups[g]
-		e.shellGrp[i], e.shellMem[i] = g, len(gr.members)
-		gr.members = append(gr.members, i)
-		gr.coefs = append(gr.coefs, sh.Coefs)
-		for f := 0; f < sh.NFunc(); f++ {
-			gr.funcs = append(gr.funcs, int32(mb.Offsets[i]+f))
-		}
-	}
+	trans := e.groupShells()
 	ng := len(e.groups)
-	trans := make([][]float64, ng)
-	for g := range e.groups {
-		trans[g] = shellTransform(e.groups[g].shell)
-	}
 	e.pairs = make([]pairData, ng*(ng+1)/2)
 	maxNm, maxNf := 1, 1
 	for I := 0; I < ng; I++ {
@@ -265,6 +239,41 @@ func NewERI(mb *basis.Molecular, opt Options) (*ERI, error) {
 	}
 	wg.Wait()
 	return e, nil
+}
+
+// groupShells sorts the shells of e.mb into groups (e.groups, e.shellGrp,
+// e.shellMem) and returns each group's function transform.
+func (e *ERI) groupShells() [][]float64 {
+	mb := e.mb
+	ns := len(mb.Shells)
+	e.shellGrp = make([]int, ns)
+	e.shellMem = make([]int, ns)
+	for i := range mb.Shells {
+		sh := &mb.Shells[i]
+		g := -1
+		for k := range e.groups {
+			if sameShellShape(e.groups[k].shell, sh) {
+				g = k
+				break
+			}
+		}
+		if g < 0 {
+			g = len(e.groups)
+			e.groups = append(e.groups, group{l: sh.L, nf: sh.NFunc(), shell: sh})
+		}
+		gr := &e.groups[g]
+		e.shellGrp[i], e.shellMem[i] = g, len(gr.members)
+		gr.members = append(gr.members, i)
+		gr.coefs = append(gr.coefs, sh.Coefs)
+		for f := 0; f < sh.NFunc(); f++ {
+			gr.funcs = append(gr.funcs, int32(mb.Offsets[i]+f))
+		}
+	}
+	trans := make([][]float64, len(e.groups))
+	for g := range e.groups {
+		trans[g] = shellTransform(e.groups[g].shell)
+	}
+	return trans
 }
 
 func (e *ERI) makePair(I, J int, trans [][]float64) pairData {
