@@ -72,7 +72,7 @@ func atomDensity(a molecule.Atom, mb *basis.Molecular, threads int, schwarz floa
 	if err != nil {
 		return nil, fmt.Errorf("scf: atomic guess for %s: %v", a.Symbol, err)
 	}
-	sys, err := newSystem(am, ab, threads, schwarz, 0, nil)
+	sys, err := newSystem(am, ab, threads, schwarz, 0, nil, nil)
 	if err != nil {
 		return nil, fmt.Errorf("scf: atomic guess for %s: %v", a.Symbol, err)
 	}

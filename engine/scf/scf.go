@@ -126,6 +126,17 @@ type Options struct {
 	ERI *integral.ERI
 	// MemoryBudgetBytes for in-core integrals (0 = the integral engine's default).
 	MemoryBudgetBytes int64
+	// JK, when set, gives the Coulomb and exchange matrices in place of the
+	// exact integrals (density fitting, engine/integral.FittedJK); the ERI
+	// engine then only lends its shell data to those who ask for it.
+	JK JKBuilder
+}
+
+// JKBuilder is what the driver needs from the two-electron integrals:
+// for densities D[i], J[i] = J[D[i]] and, when wantK, K[i] = K[D[i]],
+// J_μν = Σ (μν|λσ) D_λσ and K_μν = Σ (μλ|νσ) D_λσ.
+type JKBuilder interface {
+	JK(D []*mat.SymDense, wantK bool) (J, K []*mat.SymDense)
 }
 
 // Defaults of Options.
@@ -204,7 +215,7 @@ func Run(mol *molecule.Molecule, mb *basis.Molecular, opt Options) (*Result, err
 			return nil, fmt.Errorf("scf: perturbation operator is %d×%d but the basis has %d functions", r, r, mb.NBasis)
 		}
 	}
-	sys, err := newSystem(m, mb, opt.Threads, opt.SchwarzThreshold, opt.MemoryBudgetBytes, opt.ERI)
+	sys, err := newSystem(m, mb, opt.Threads, opt.SchwarzThreshold, opt.MemoryBudgetBytes, opt.ERI, opt.JK)
 	if err != nil {
 		return nil, err
 	}

@@ -21,8 +21,10 @@ type system struct {
 }
 
 // newSystem computes the one-electron integrals of mb on m and sets up the
-// ERI engine (or reuses eri).
-func newSystem(m *molecule.Molecule, mb *basis.Molecular, threads int, schwarz float64, memory int64, eri *integral.ERI) (*system, error) {
+// ERI engine (or reuses eri). A given J/K builder (fitted integrals) makes
+// every build from the full density; otherwise the exact integrals are
+// contracted incrementally.
+func newSystem(m *molecule.Molecule, mb *basis.Molecular, threads int, schwarz float64, memory int64, eri *integral.ERI, jk JKBuilder) (*system, error) {
 	s := integral.Overlap(mb)
 	t := integral.Kinetic(mb)
 	v := integral.NuclearMolecule(mb, m)
@@ -35,6 +37,9 @@ func newSystem(m *molecule.Molecule, mb *basis.Molecular, threads int, schwarz f
 		if err != nil {
 			return nil, fmt.Errorf("scf: electron-repulsion integrals: %v", err)
 		}
+	}
+	if jk != nil {
+		return &system{s: s, h: h, enuc: m.NuclearRepulsion(), eri: eri, jk: jk.JK}, nil
 	}
 	inc := &incrementalJK{full: eri.JK}
 	return &system{s: s, h: h, enuc: m.NuclearRepulsion(), eri: eri, jk: inc.build}, nil
