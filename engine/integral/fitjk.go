@@ -620,7 +620,7 @@ func (f *FittedJK) buildBlocked(dp [][]float64, facs []densityFactor) ([][]float
 			}
 			src := f.blockSource(list, buf)
 			runTasks(f.threads, f.nChunks, f.getKScratch, f.putKScratch, func(c int, s *kScratch) {
-						qa, qb := f.chunkRange(c)
+				qa, qb := f.chunkRange(c)
 				if first {
 					for d := range dp {
 						f.dPart(&f.blocks[bi], src, dp[d], qa, qb, s.part, dvec[d][qa:qb])
@@ -636,7 +636,7 @@ func (f *FittedJK) buildBlocked(dp [][]float64, facs []densityFactor) ([][]float
 			})
 		}
 		runTasks(f.threads, f.nChunks, f.getKScratch, f.putKScratch, func(c int, s *kScratch) {
-				qa, qb := f.chunkRange(c)
+			qa, qb := f.chunkRange(c)
 			for x, bt := range pass {
 				if kc[c][bt.d] == nil {
 					kc[c][bt.d] = make([]float64, f.nPad*f.nPad)
