@@ -75,16 +75,18 @@ type TraceMatch struct {
 	Value         float64 `json:"value"`
 	Unit          string  `json:"unit"`
 	MagnitudeOnly bool    `json:"magnitude_only"`
-	Method        string  `json:"method"`
-	Basis         string  `json:"basis"`
-	Angular       string  `json:"angular"`
-	EnergyTol     float64 `json:"energy_tol_hartree"`
-	DensityTol    float64 `json:"density_rms_tol"`
-	GradientTol   float64 `json:"orbital_gradient_tol"`
-	Revision      string  `json:"vcs_revision"`
-	Version       string  `json:"code_version"`
-	StartUTC      string  `json:"start_utc"`
-	Status        string  `json:"status"`
+	// Level is the record's level label (LevelLabel over the records searched).
+	Level       string  `json:"level"`
+	Method      string  `json:"method"`
+	Basis       string  `json:"basis"`
+	Angular     string  `json:"angular"`
+	EnergyTol   float64 `json:"energy_tol_hartree"`
+	DensityTol  float64 `json:"density_rms_tol"`
+	GradientTol float64 `json:"orbital_gradient_tol"`
+	Revision    string  `json:"vcs_revision"`
+	Version     string  `json:"code_version"`
+	StartUTC    string  `json:"start_utc"`
+	Status      string  `json:"status"`
 }
 
 // Trace finds every quantity of the given records that, expressed in the
@@ -105,6 +107,7 @@ func Trace(recs []*Record, printed string, unit string) ([]TraceMatch, PrintedVa
 		want = &u
 	}
 	in := func(x float64) bool { return x >= pv.Low && x < pv.High }
+	look := LookupIn(recs)
 	var out []TraceMatch
 	for _, r := range recs {
 		for _, q := range Quantities(r) {
@@ -121,7 +124,7 @@ func Trace(recs []*Record, printed string, unit string) ([]TraceMatch, PrintedVa
 				continue
 			}
 			out = append(out, TraceMatch{RecordID: r.ID, Molecule: r.Input.Molecule.Name, Formula: r.Formula(), Quantity: q.Path,
-				Kind: q.Kind, Value: v, Unit: uname, MagnitudeOnly: mag, Method: r.Input.Method, Basis: r.Input.Basis.Name,
+				Kind: q.Kind, Value: v, Unit: uname, MagnitudeOnly: mag, Level: LevelLabel(r, look), Method: r.Input.Method, Basis: r.Input.Basis.Name,
 				Angular: string(r.Input.Basis.Angular), EnergyTol: r.Input.SCF.EnergyTolHartree, DensityTol: r.Input.SCF.DensityTol,
 				GradientTol: r.Input.SCF.GradientTol, Revision: r.Code.Revision, Version: r.Code.Version, StartUTC: r.Run.StartUTC, Status: r.Status})
 		}

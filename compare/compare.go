@@ -29,6 +29,10 @@ type Options struct {
 	// CancelDipole and CancelQuad: cancellation ratios above these are flagged.
 	CancelDipole float64
 	CancelQuad   float64
+	// Lookup finds archived records outside the compared ones, to name the
+	// level a borrowed geometry was optimised at (nil: only the records
+	// compared are searched).
+	Lookup archive.Lookup
 }
 
 // DefaultOptions are the settings used when a field of Options is zero.
@@ -91,16 +95,15 @@ func hill(c map[string]int) string {
 	return m.Formula()
 }
 
-// levelOf returns the level of a record.
-func levelOf(r *archive.Record) Level {
-	m := strings.ToUpper(r.Input.Method)
+// levelOf returns the level of a record, labelled by archive.LevelLabel
+// (geometry-from links are followed with look).
+func levelOf(r *archive.Record, look archive.Lookup) Level {
 	fc := r.Input.Correlation != nil && r.Input.Correlation.FrozenCore
-	label := m
-	if fc {
-		label += "(fc)"
+	l := Level{Label: archive.LevelLabel(r, look), Method: r.Input.Method, Reference: r.Input.Reference, Basis: r.Input.Basis.Name, FrozenCore: fc, Diffuse: hasDiffuse(r.Input.Basis.Name)}
+	if g := archive.GeometryOf(r, look); g.Kind == archive.GeometryBorrowed {
+		l.GeometryLevel = g.SourceLevel
 	}
-	label += "/" + r.Input.Basis.Name
-	return Level{Label: label, Method: r.Input.Method, Basis: r.Input.Basis.Name, FrozenCore: fc, Diffuse: hasDiffuse(r.Input.Basis.Name)}
+	return l
 }
 
 // hasDiffuse judges from a basis name whether it carries diffuse functions:
@@ -146,8 +149,8 @@ type recMol struct {
 	counts  map[string]int
 }
 
-func newRecMol(r *archive.Record) *recMol {
-	m := &recMol{rec: r, level: levelOf(r), counts: map[string]int{}}
+func newRecMol(r *archive.Record, look archive.Lookup) *recMol {
+	m := &recMol{rec: r, level: levelOf(r, look), counts: map[string]int{}}
 	if len(r.Results.GeometryAngstrom) > 0 {
 		for _, a := range r.Results.GeometryAngstrom {
 			m.symbols = append(m.symbols, a.Symbol)
@@ -257,6 +260,7 @@ func Compare(set *RefSet, records []*archive.Record, opt Options) (*Table, error
 		return nil, fmt.Errorf("no reference set given")
 	}
 	o := opt.withDefaults()
+	look := archive.Either(archive.LookupIn(records), opt.Lookup)
 	t := &Table{
 		RefSet: RefSetInfo{Name: set.Name, Description: set.Description, Source: set.Source, Origin: set.Origin, SHA256: set.SHA256, Entries: len(set.Entries)},
 		Settings: Settings{
@@ -264,7 +268,7 @@ func Compare(set *RefSet, records []*archive.Record, opt Options) (*Table, error
 			DipoleFloorDebye: o.DipoleFloorDebye, QuadFloorDA: o.QuadFloorDA, EnergyFloorKJ: o.EnergyFloorKJ,
 			CancelDipole: o.CancelDipole, CancelQuad: o.CancelQuad,
 		},
-		Levels: []Level{}, Picked: []Pick{}, Deviations: []Deviation{}, Stats: []Stats{}, LevelDiffs: []LevelDiff{},
+		Levels: []Level{}, Records: []RecordInfo{}, Picked: []Pick{}, Deviations: []Deviation{}, Stats: []Stats{}, LevelDiffs: []LevelDiff{},
 		Cautions: []Caution{}, Excluded: []Excluded{}, Unmatched: []Unmatched{},
 	}
 
@@ -316,7 +320,8 @@ func Compare(set *RefSet, records []*archive.Record, opt Options) (*Table, error
 		if len(named) == 0 {
 			continue
 		}
-		rm := newRecMol(r)
+		rm := newRecMol(r, look)
+		t.Records = append(t.Records, RecordInfo{RecordID: r.ID, Level: rm.level.Label, Geometry: archive.GeometryWords(r, look), GeometryKind: archive.GeometryOf(r, look).Kind})
 		status := r.Status
 		if status == "" {
 			status = r.Results.Status
@@ -367,6 +372,7 @@ func Compare(set *RefSet, records []*archive.Record, opt Options) (*Table, error
 	for _, l := range levels {
 		t.Levels = append(t.Levels, l)
 	}
+	sort.Slice(t.Records, func(i, j int) bool { return t.Records[i].RecordID < t.Records[j].RecordID })
 	sort.Slice(t.Levels, func(i, j int) bool { return levelLess(t.Levels[i], t.Levels[j]) })
 	sort.Slice(t.Excluded, func(i, j int) bool {
 		if t.Excluded[i].Molecule != t.Excluded[j].Molecule {

@@ -12,6 +12,9 @@ type Table struct {
 	RefSet RefSetInfo `json:"reference_set"`
 	// Levels are the method/basis combinations found, in display order.
 	Levels []Level `json:"levels"`
+	// Records names the level of every record considered (matched to a
+	// molecule of the set) and where its geometry came from, by record id.
+	Records []RecordInfo `json:"records"`
 	// Picked says which record was used for each molecule × level × purpose and why.
 	Picked     []Pick      `json:"picked"`
 	Deviations []Deviation `json:"deviations"`
@@ -57,13 +60,30 @@ type RefSetInfo struct {
 
 // Level is one method/basis combination.
 type Level struct {
-	// Label is the display name, e.g. "MP2/cc-pVTZ" or "MP2(fc)/cc-pVTZ".
-	Label      string `json:"label"`
-	Method     string `json:"method"`
-	Basis      string `json:"basis"`
-	FrozenCore bool   `json:"frozen_core,omitempty"`
+	// Label is the display name in the trade's notation (archive.LevelLabel),
+	// e.g. "MP2(fc)/cc-pVTZ", "UHF/6-31G*" or "MP2(fc)/cc-pVDZ//HF/6-31G*".
+	Label     string `json:"label"`
+	Method    string `json:"method"`
+	Reference string `json:"reference,omitempty"`
+	Basis     string `json:"basis"`
+	// GeometryLevel is the level that optimised the structure the records
+	// of this level were computed on, when that is another level (the B of A//B).
+	GeometryLevel string `json:"geometry_level,omitempty"`
+	FrozenCore    bool   `json:"frozen_core,omitempty"`
 	// Diffuse says whether the basis has diffuse functions (judged from its name).
 	Diffuse bool `json:"diffuse"`
+}
+
+// RecordInfo is one record considered by the comparison.
+type RecordInfo struct {
+	RecordID string `json:"record_id"`
+	// Level is the record's own level label (archive.LevelLabel).
+	Level string `json:"level"`
+	// Geometry says where the record's geometry came from, in words that
+	// complete "the geometry …" (archive.GeometryWords).
+	Geometry string `json:"geometry"`
+	// GeometryKind is archive.GeometryOptimised, GeometryInput, GeometryBorrowed or GeometryUnresolved.
+	GeometryKind string `json:"geometry_kind"`
 }
 
 // Purpose values of a Pick: structures need an optimised geometry;

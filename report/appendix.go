@@ -110,7 +110,7 @@ func (b *builder) structures() {
 		}
 		for _, r := range s.records {
 			if r.Input.Task == "optimize" && !s.fromIn {
-				src = "optimised at " + levelOf(*r)
+				src = "optimised at " + b.levelOf(r)
 				break
 			}
 		}
@@ -124,7 +124,7 @@ func (b *builder) structures() {
 		}
 		for _, r := range s.records {
 			e := num(r.Results.EnergyHartree, 8)
-			note := cat(mk("*E*("), txt(levelOf(*r)), txt(") = "), e.Lines[0], mk(" E_{h}"))
+			note := cat(mk("*E*("), txt(b.levelOf(r)), txt(") = "), e.Lines[0], mk(" E_{h}"))
 			if r.Results.Correlation != nil || (r.Results.SCFEnergyHartree != 0 && r.Results.SCFEnergyHartree != r.Results.EnergyHartree) {
 				note = cat(note, mk(" (SCF "), num(r.Results.SCFEnergyHartree, 8).Lines[0], mk(" E_{h})"))
 			}
@@ -274,7 +274,7 @@ func (b *builder) provenance() {
 		rf := refs[i]
 		rt.Rows = append(rt.Rows, row{Cells: []cell{
 			{Lines: []rich{txt(r.ID), txt(orDash(r.InputKey))}, Raw: r.ID + " " + r.InputKey},
-			{Lines: []rich{txt(r.Input.Molecule.Name), txt(levelOf(*r))}, Raw: r.Input.Molecule.Name + " " + levelOf(*r)},
+			{Lines: []rich{txt(r.Input.Molecule.Name), txt(b.levelOf(r))}, Raw: r.Input.Molecule.Name + " " + b.levelOf(r)},
 			{Lines: []rich{txt(rf.c + " · " + rf.bs + " · " + rf.s), txt(orDash(r.Status))}, Raw: rf.c + " " + rf.bs + " " + rf.s + " " + r.Status},
 		}, Rule: i > 0})
 	}

@@ -18,6 +18,7 @@ type builder struct {
 	tbl     *compare.Table
 	recs    []archive.Record // sorted
 	byID    map[string]*archive.Record
+	levels  map[string]string // record id → level label
 	opts    Options
 	d       *document
 	tableNo int
@@ -31,7 +32,9 @@ func build(tbl *compare.Table, records []archive.Record, opts Options) (*documen
 	if err := checkInputs(tbl, records); err != nil {
 		return nil, time.Time{}, err
 	}
-	b := &builder{tbl: tbl, recs: sortedRecords(records), opts: opts, refNo: map[string]int{}}
+	levels := recordLevels(tbl, records)
+	b := &builder{tbl: tbl, levels: levels, opts: opts, refNo: map[string]int{}}
+	b.recs = sortedRecords(records, b.levelOf)
 	b.byID = make(map[string]*archive.Record, len(b.recs))
 	for i := range b.recs {
 		b.byID[b.recs[i].ID] = &b.recs[i]
@@ -56,6 +59,9 @@ func build(tbl *compare.Table, records []archive.Record, opts Options) (*documen
 	b.references()
 	return b.d, created, nil
 }
+
+// levelOf is a record's level label (archive.LevelLabel).
+func (b *builder) levelOf(r *archive.Record) string { return b.levels[r.ID] }
 
 func (b *builder) add(bl ...block) { b.d.Blocks = append(b.d.Blocks, bl...) }
 

@@ -141,14 +141,14 @@ func reportDate(opts Options, records []archive.Record) (string, time.Time) {
 
 // sortedRecords orders records by molecule, level and id (not by the
 // caller's order, so the document does not depend on archive iteration).
-func sortedRecords(records []archive.Record) []archive.Record {
+func sortedRecords(records []archive.Record, level func(*archive.Record) string) []archive.Record {
 	out := append([]archive.Record(nil), records...)
 	sort.SliceStable(out, func(i, j int) bool {
-		a, b := out[i], out[j]
+		a, b := &out[i], &out[j]
 		if a.Input.Molecule.Name != b.Input.Molecule.Name {
 			return naturalLess(a.Input.Molecule.Name, b.Input.Molecule.Name)
 		}
-		if la, lb := levelOf(a), levelOf(b); la != lb {
+		if la, lb := level(a), level(b); la != lb {
 			return la < lb
 		}
 		return a.ID < b.ID
@@ -156,14 +156,24 @@ func sortedRecords(records []archive.Record) []archive.Record {
 	return out
 }
 
-// levelOf is a record's level label in the comparison's own form:
-// METHOD[(fc)]/basis.
-func levelOf(r archive.Record) string {
-	m := strings.ToUpper(r.Input.Method)
-	if r.Input.Correlation != nil && r.Input.Correlation.FrozenCore {
-		m += "(fc)"
+// recordLevels gives every record its level label (archive.LevelLabel):
+// as the comparison named it, else resolved among the records given.
+func recordLevels(tbl *compare.Table, records []archive.Record) map[string]string {
+	out := make(map[string]string, len(records))
+	for _, ri := range tbl.Records {
+		out[ri.RecordID] = ri.Level
 	}
-	return m + "/" + r.Input.Basis.Name
+	ptrs := make([]*archive.Record, len(records))
+	for i := range records {
+		ptrs[i] = &records[i]
+	}
+	look := archive.LookupIn(ptrs)
+	for _, r := range ptrs {
+		if _, ok := out[r.ID]; !ok {
+			out[r.ID] = archive.LevelLabel(r, look)
+		}
+	}
+	return out
 }
 
 func shortID(id string) string {

@@ -4,7 +4,6 @@ import (
 	"embed"
 	"fmt"
 	"io"
-	"math"
 	"path"
 	"runtime"
 	"sort"
@@ -198,9 +197,14 @@ func writeDemoSummary(w io.Writer, tab *compare.Table, cautions []demoCaution) {
 	fmt.Fprintln(w)
 }
 
-// bondVerdict says in one sentence which level's bond lengths came
-// closest with the largest basis set in the table, from the numbers.
+// bondVerdict says in one sentence how the levels' bond lengths rank for
+// each basis set, by mean absolute error (signed errors of opposite sign
+// would cancel in a mean signed error), from the numbers.
 func bondVerdict(tab *compare.Table) string {
+	levels := map[string]compare.Level{}
+	for _, l := range tab.Levels {
+		levels[l.Label] = l
+	}
 	var rows []compare.Stats
 	for _, s := range tab.Stats {
 		if s.Kind == compare.KindBondLength {
@@ -213,7 +217,7 @@ func bondVerdict(tab *compare.Table) string {
 	byBasis := map[string][]compare.Stats{}
 	var order []string
 	for _, s := range rows {
-		b := s.Level[strings.Index(s.Level, "/")+1:]
+		b := levels[s.Level].Basis
 		if _, ok := byBasis[b]; !ok {
 			order = append(order, b)
 		}
@@ -222,12 +226,24 @@ func bondVerdict(tab *compare.Table) string {
 	var parts []string
 	for _, b := range order {
 		rs := byBasis[b]
-		sort.Slice(rs, func(i, j int) bool { return math.Abs(rs[i].MSE) < math.Abs(rs[j].MSE) })
+		sort.SliceStable(rs, func(i, j int) bool { return rs[i].MAE < rs[j].MAE })
 		var bits []string
 		for _, s := range rs {
-			bits = append(bits, fmt.Sprintf("%s %+.2f %s", s.Level[:strings.Index(s.Level, "/")], s.MSE, s.Unit))
+			name := strings.TrimSuffix(s.Level, "/"+b)
+			bits = append(bits, fmt.Sprintf("%s %.2f %s (mean signed %s)", name, s.MAE, s.Unit, signedFixed(s.MSE, 2)))
 		}
 		parts = append(parts, fmt.Sprintf("with %s: %s", b, strings.Join(bits, ", ")))
 	}
-	return "Bond lengths, mean signed error from closest to farthest — " + strings.Join(parts, "; ") + "."
+	return "Bond lengths, mean absolute error from closest to farthest — " + strings.Join(parts, "; ") + "."
+}
+
+// signedFixed prints v with its sign ("+0.38", "-0.12") and prec
+// decimals, as the tables above it do; a value that rounds to zero prints
+// as "0.00".
+func signedFixed(v float64, prec int) string {
+	s := fixed(v, prec)
+	if strings.Trim(s, "-0.") == "" || strings.HasPrefix(s, "-") {
+		return s
+	}
+	return "+" + s
 }

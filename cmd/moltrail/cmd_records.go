@@ -85,25 +85,48 @@ func cmdList(args []string, stdout, stderr io.Writer) int {
 	if err != nil {
 		return fail(stderr, exitFailed, "list", err)
 	}
+	rows, err := listRows(st, sums)
+	if err != nil {
+		return fail(stderr, exitFailed, "list", err)
+	}
 	if *asJSON {
-		if sums == nil {
-			sums = []archive.Summary{}
-		}
-		printJSON(stdout, sums)
+		printJSON(stdout, rows)
 		return exitOK
 	}
-	if len(sums) == 0 {
+	if len(rows) == 0 {
 		fmt.Fprintln(stdout, "no records match")
 		return exitOK
 	}
-	t := &table{head: []string{"id", "started UTC", "molecule", "formula", "method", "basis", "status", "energy/hartree", "tags"},
-		right: []bool{false, false, false, false, false, false, false, true, false}}
-	for _, s := range sums {
-		t.add(s.ID[:12], utc(s.StartUTC), s.Molecule, s.Formula, methodLabel(s.Method, s.Reference), s.Basis+angularMark(s.Angular), s.Status, energyCell(s.Status, s.EnergyHartree), strings.Join(s.Tags, " "))
+	t := &table{head: []string{"id", "started UTC", "molecule", "formula", "level", "status", "energy/hartree", "tags"},
+		right: []bool{false, false, false, false, false, false, true, false}}
+	for _, s := range rows {
+		t.add(s.ID[:12], utc(s.StartUTC), s.Molecule, s.Formula, s.Level+angularMark(s.Angular), s.Status, energyCell(s.Status, s.EnergyHartree), strings.Join(s.Tags, " "))
 	}
 	t.write(stdout)
-	fmt.Fprintf(stdout, "%d record(s); ° marks Cartesian d/f functions\n", len(sums))
+	fmt.Fprintf(stdout, "%d record(s); ° marks Cartesian d/f functions\n", len(rows))
 	return exitOK
+}
+
+// listRow is one line of `list`: the record's summary and its level label.
+type listRow struct {
+	archive.Summary
+	// Level is the record's level in the trade's notation (archive.LevelLabel).
+	Level string `json:"level"`
+}
+
+// listRows labels each summary with its record's level; the label needs
+// the record itself (frozen core, geometry-from links).
+func listRows(st *archive.Store, sums []archive.Summary) ([]listRow, error) {
+	rows := make([]listRow, 0, len(sums))
+	look := st.Lookup()
+	for _, s := range sums {
+		r, _, err := st.Get(s.ID)
+		if err != nil {
+			return nil, err
+		}
+		rows = append(rows, listRow{Summary: s, Level: archive.LevelLabel(r, look)})
+	}
+	return rows, nil
 }
 
 func angularMark(a string) string {
@@ -143,7 +166,7 @@ func cmdShow(args []string, stdout, stderr io.Writer) int {
 		return exitOK
 	}
 	notes, _ := st.Notes(id)
-	writeRecord(stdout, rec, notes)
+	writeRecord(stdout, rec, notes, st.Lookup())
 	if err := rec.Check(); err != nil {
 		fmt.Fprintf(stderr, "moltrail show: warning: record %s does not verify: %v\n", id[:12], err)
 		return exitFailed

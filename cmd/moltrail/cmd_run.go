@@ -204,7 +204,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 		}
 		fmt.Fprintf(stdout, "%s\n", b)
 	} else {
-		writeRunSummary(stdout, rec)
+		writeRunSummary(stdout, rec, sourceLookup(af, rec))
 	}
 	if rec.Status != engine.StatusConverged {
 		msg := rec.Results.Error
@@ -273,4 +273,29 @@ func geometryFromRecord(af *archiveFlags, prefix string, stderr io.Writer) (*mol
 		m.Atoms = append(m.Atoms, a)
 	}
 	return m, id, exitOK, nil
+}
+
+// sourceLookup holds the records a record's geometry-from links lead to,
+// read from the archive, so that its level label can name the level of a
+// borrowed geometry (nil when the record has no such link or the archive
+// cannot be read: the label then names the source record instead).
+func sourceLookup(af *archiveFlags, rec *archive.Record) archive.Lookup {
+	if k := archive.GeometryOf(rec, nil).Kind; k == archive.GeometryOptimised || k == archive.GeometryInput {
+		return nil
+	}
+	st, _, err := af.open(true, io.Discard)
+	if err != nil {
+		return nil
+	}
+	defer st.Close()
+	var chain []*archive.Record
+	look := st.Lookup()
+	archive.GeometryOf(rec, func(id string) *archive.Record {
+		r := look(id)
+		if r != nil {
+			chain = append(chain, r)
+		}
+		return r
+	})
+	return archive.LookupIn(chain)
 }

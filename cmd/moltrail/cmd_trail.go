@@ -196,13 +196,13 @@ func cmdTrace(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintln(stdout, "no stored quantity prints as this figure")
 		return exitOK
 	}
-	t := &table{head: []string{"record", "molecule", "quantity", "value", "unit", "method/basis", "scf ΔE tol", "code", "started UTC", ""}, right: []bool{false, false, false, true}}
+	t := &table{head: []string{"record", "molecule", "quantity", "value", "unit", "level", "scf ΔE tol", "code", "started UTC", ""}, right: []bool{false, false, false, true}}
 	for _, m := range ms {
 		note := ""
 		if m.MagnitudeOnly {
 			note = "magnitude only (sign differs)"
 		}
-		t.add(m.RecordID[:12], m.Molecule, m.Quantity, fmt.Sprintf("%.8g", m.Value), m.Unit, m.Method+"/"+m.Basis+angularMark(m.Angular),
+		t.add(m.RecordID[:12], m.Molecule, m.Quantity, fmt.Sprintf("%.8g", m.Value), m.Unit, m.Level+angularMark(m.Angular),
 			fmt.Sprintf("%.0e", m.EnergyTol), codeLabel(m.Version, m.Revision), utc(m.StartUTC), note)
 	}
 	t.write(stdout)
@@ -242,7 +242,10 @@ func cmdDiff(args []string, stdout, stderr io.Writer) int {
 		printJSON(stdout, d)
 		return exitOK
 	}
-	fmt.Fprintf(stdout, "A %s  %s  %s\nB %s  %s  %s\n", d.A, recs[0].Input.Molecule.Name, utc(recs[0].Run.StartUTC), d.B, recs[1].Input.Molecule.Name, utc(recs[1].Run.StartUTC))
+	look := st.Lookup()
+	for i, id := range []string{d.A, d.B} {
+		fmt.Fprintf(stdout, "%c %s  %s  %s  %s\n", 'A'+i, id, recs[i].Input.Molecule.Name, archive.LevelLabel(recs[i], look), utc(recs[i].Run.StartUTC))
+	}
 	section := func(title string, n int) bool {
 		if n == 0 {
 			fmt.Fprintf(stdout, "\n» %s: no differences\n", title)

@@ -445,11 +445,13 @@ func TestHumanOutputForms(t *testing.T) {
 		t.Errorf("show prints a negative zero or +0:\n%s", show)
 	}
 	list := call("list", "--archive", f.arch).stdout
-	if !strings.Contains(list, "uhf") || !strings.Contains(list, "energy/hartree") || !strings.Contains(list, "started UTC") {
-		t.Errorf("list should show the method, the energy unit and UTC times:\n%s", list)
+	// One level label everywhere (archive.LevelLabel): the open-shell
+	// reference is part of it.
+	if !strings.Contains(list, "UHF/STO-3G") || !strings.Contains(list, "HF/STO-3G") || !strings.Contains(list, "energy/hartree") || !strings.Contains(list, "started UTC") {
+		t.Errorf("list should show the level label, the energy unit and UTC times:\n%s", list)
 	}
-	if methodLabel("hf", "uhf") != "hf(uhf)" || methodLabel("uhf", "uhf") != "uhf" {
-		t.Error("methodLabel should add the SCF reference only when it says more")
+	if !strings.Contains(show, "HF/STO-3G (spherical functions)") || !strings.Contains(show, "is the geometry given as input") {
+		t.Errorf("show should give the level label and the geometry source:\n%s", show)
 	}
 	for _, c := range []struct {
 		v    float64

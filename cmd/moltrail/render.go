@@ -11,17 +11,10 @@ import (
 	"moltrail/engine"
 )
 
-func level(r *archive.Record) string {
-	return methodLabel(r.Input.Method, r.Input.Reference) + " / " + r.Input.Basis.Name + " " + string(r.Input.Basis.Angular)
-}
-
-// methodLabel is the method with its SCF reference when that says more
-// (hf(uhf) for an open shell, mp2(rhf)).
-func methodLabel(method, reference string) string {
-	if reference != "" && reference != method {
-		return method + "(" + reference + ")"
-	}
-	return method
+// levelLine is a record's level label (archive.LevelLabel, with look to
+// follow geometry-from links) and the angular type of its basis functions.
+func levelLine(r *archive.Record, look archive.Lookup) string {
+	return archive.LevelLabel(r, look) + " (" + string(r.Input.Basis.Angular) + " functions)"
 }
 
 // codeLabel is a program version with the start of its VCS revision.
@@ -71,10 +64,10 @@ func signed(n int) string {
 }
 
 // writeRunSummary is the short human report after a run.
-func writeRunSummary(w io.Writer, r *archive.Record) {
+func writeRunSummary(w io.Writer, r *archive.Record, look archive.Lookup) {
 	fmt.Fprintf(w, "record   %s   %s\n", r.ID, r.Status)
 	fmt.Fprintf(w, "molecule %s  %s  charge %s  multiplicity %d\n", r.Input.Molecule.Name, r.Formula(), signed(r.Input.Molecule.Charge), r.Input.Molecule.Multiplicity)
-	fmt.Fprintf(w, "level    %s  task %s\n", level(r), r.Input.Task)
+	fmt.Fprintf(w, "level    %s  task %s\n", levelLine(r, look), r.Input.Task)
 	if r.Status != engine.StatusFailed {
 		fmt.Fprintf(w, "energy   %s hartree\n", fixed(r.Results.EnergyHartree, 10))
 		if r.Results.DipoleDebye != nil {
@@ -87,7 +80,7 @@ func writeRunSummary(w io.Writer, r *archive.Record) {
 }
 
 // writeRecord is the whole record, human readable.
-func writeRecord(w io.Writer, r *archive.Record, notes []archive.Note) {
+func writeRecord(w io.Writer, r *archive.Record, notes []archive.Note, look archive.Lookup) {
 	sec := func(title string) { fmt.Fprintf(w, "\n» %s\n", title) }
 	kv := func(k, format string, a ...any) { fmt.Fprintf(w, "  %-22s %s\n", k, fmt.Sprintf(format, a...)) }
 	fmt.Fprintf(w, "record %s\n", r.ID)
@@ -98,6 +91,8 @@ func writeRecord(w io.Writer, r *archive.Record, notes []archive.Note) {
 	in := r.Input
 	sec("input")
 	kv("molecule", "%s  (%s, charge %s, multiplicity %d, %d atoms)", in.Molecule.Name, r.Formula(), signed(in.Molecule.Charge), in.Molecule.Multiplicity, len(in.Molecule.Atoms))
+	kv("level", "%s", levelLine(r, look))
+	kv("geometry", "%s", archive.GeometryWords(r, look))
 	kv("method", "%s  reference %s", in.Method, in.Reference)
 	if in.Functional != "" {
 		kv("functional", "%s", in.Functional)
