@@ -308,6 +308,67 @@ func TestSameBuildReuse(t *testing.T) {
 	s.Close()
 }
 
+// TestCodeMatch: with a source identity on both sides it alone decides
+// (revision, modified flag and executable do not matter); without one on
+// either side the revision rule holds; a mixed pair never matches; the
+// toolchain and platform always count. Each refusal names its reason.
+func TestCodeMatch(t *testing.T) {
+	src := strings.Repeat("5", 64)
+	base := Code{Program: "moltrail", Version: "0.1.0", GoVersion: "go1.26.8", OS: "linux", Arch: "amd64", CanonicalVersion: "moltrail-job/1", SourceSHA256: src}
+	with := func(f func(*Code)) Code { c := base; f(&c); return c }
+	cases := []struct {
+		name string
+		a, b Code
+		ok   bool
+		why  string
+	}{
+		{"same source, go run against go install", with(func(c *Code) { c.ExecutableSHA256 = strings.Repeat("a", 64) }),
+			with(func(c *Code) { c.Revision = "abc"; c.ExecutableSHA256 = strings.Repeat("b", 64) }), true, "the same source"},
+		{"same source, modified tree", with(func(c *Code) { c.Modified = true }), base, true, "the same source"},
+		{"other source", base, with(func(c *Code) { c.SourceSHA256 = strings.Repeat("6", 64) }), false, "made from other source"},
+		{"record without source identity", with(func(c *Code) { c.SourceSHA256 = ""; c.Revision = "abc" }), with(func(c *Code) { c.Revision = "abc" }), false, "did not record a source identity"},
+		{"Go version", base, with(func(c *Code) { c.GoVersion = "go1.27.0" }), false, "Go version is go1.26.8"},
+		{"platform", base, with(func(c *Code) { c.Arch = "arm64" }), false, "platform is linux/amd64"},
+		{"job encoding", base, with(func(c *Code) { c.CanonicalVersion = "moltrail-job/2" }), false, "job encoding"},
+		{"old rule, same revision", with(func(c *Code) { c.SourceSHA256 = ""; c.Revision = "abc" }), with(func(c *Code) { c.SourceSHA256 = ""; c.Revision = "abc" }), true, "the same revision"},
+		{"old rule, other revision", with(func(c *Code) { c.SourceSHA256 = ""; c.Revision = "abc" }), with(func(c *Code) { c.SourceSHA256 = ""; c.Revision = "def" }), false, "revision is abc"},
+		{"old rule, no revision, other executable", with(func(c *Code) { c.SourceSHA256 = ""; c.ExecutableSHA256 = strings.Repeat("a", 64) }),
+			with(func(c *Code) { c.SourceSHA256 = ""; c.ExecutableSHA256 = strings.Repeat("b", 64) }), false, "executable differs"},
+	}
+	for _, c := range cases {
+		ok, why := c.a.Match(c.b)
+		if ok != c.ok || !strings.Contains(why, c.why) {
+			t.Errorf("%s: Match = %v %q, want %v and %q", c.name, ok, why, c.ok, c.why)
+		}
+		if c.a.SameBuild(c.b) != c.ok {
+			t.Errorf("%s: SameBuild disagrees with Match", c.name)
+		}
+	}
+	if CurrentCode().SourceSHA256 == "" {
+		t.Error("this build records no source identity")
+	}
+}
+
+// TestFindReuseSays: the reason names no record, the record reused, or
+// what sets the stored record apart.
+func TestFindReuseSays(t *testing.T) {
+	s := openRW(t, t.TempDir())
+	defer s.Close()
+	r := fixture(t, 1, "hf", "sto-3g", nil, t0)
+	if got, why, err := s.FindReuse(r.InputKey, r.Code); err != nil || got != nil || why != "the archive holds no record of this input" {
+		t.Fatalf("empty archive: %v %q %v", got, why, err)
+	}
+	s.Put(r)
+	if got, why, _ := s.FindReuse(r.InputKey, r.Code); got == nil || !strings.Contains(why, "record "+r.ID[:12]+" holds this input") {
+		t.Errorf("same code: %q", why)
+	}
+	other := r.Code
+	other.GoVersion = "go0.0"
+	if got, why, _ := s.FindReuse(r.InputKey, other); got != nil || !strings.Contains(why, "1 record(s) of this input, none made by this code") || !strings.Contains(why, "Go version") {
+		t.Errorf("other code: %q", why)
+	}
+}
+
 func TestTamperDetected(t *testing.T) {
 	dir := t.TempDir()
 	s := openRW(t, dir)

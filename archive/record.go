@@ -46,6 +46,10 @@ type Code struct {
 	Arch             string `json:"arch"`
 	ExecutableSHA256 string `json:"executable_sha256"`
 	CanonicalVersion string `json:"canonical_version"`
+	// SourceSHA256 is the hash of the module source the build was made
+	// from (see moltrail.SourceSHA256); empty in records of builds that
+	// did not record it.
+	SourceSHA256 string `json:"source_sha256,omitempty"`
 }
 
 // Run describes the process that computed a record.

@@ -39,25 +39,43 @@ type RunOutcome struct {
 	Cached bool
 	// Recomputed is the stored record a forced run was linked to, if any.
 	Recomputed *Record
+	// Reason says in a phrase why a stored record was or was not reused.
+	Reason string
 }
 
 // FindSameBuild returns the newest stored record of this input key made by
 // the same code version (see Code.SameBuild), or nil.
 func (s *Store) FindSameBuild(inputKey string, code Code) (*Record, error) {
+	r, _, err := s.FindReuse(inputKey, code)
+	return r, err
+}
+
+// FindReuse is FindSameBuild with the reason in a phrase: why the record
+// found may stand for a computation by code, or why none may (no record of
+// the input, or what sets the newest one apart from code).
+func (s *Store) FindReuse(inputKey string, code Code) (*Record, string, error) {
 	sums, err := s.ByInputKey(inputKey)
 	if err != nil {
-		return nil, err
+		return nil, "", err
 	}
+	if len(sums) == 0 {
+		return nil, "the archive holds no record of this input", nil
+	}
+	var newest string
 	for i := len(sums) - 1; i >= 0; i-- {
 		r, _, err := s.Get(sums[i].ID)
 		if err != nil {
-			return nil, err
+			return nil, "", err
 		}
-		if r.Code.SameBuild(code) {
-			return r, nil
+		ok, why := r.Code.Match(code)
+		if ok {
+			return r, fmt.Sprintf("record %s holds this input and was made by this code: %s", short(r.ID), why), nil
+		}
+		if newest == "" {
+			newest = fmt.Sprintf("record %s: %s", short(r.ID), why)
 		}
 	}
-	return nil, nil
+	return nil, fmt.Sprintf("the archive holds %d record(s) of this input, none made by this code (newest, %s)", len(sums), newest), nil
 }
 
 // RunAndStore runs one job and stores its record in the archive at dir:
@@ -79,11 +97,12 @@ func RunAndStore(dir string, req RunRequest, compute Computer) (*RunOutcome, err
 	out := &RunOutcome{}
 	lineage := append([]Link{}, req.Lineage...)
 	if st, err := Open(dir, OpenOptions{ReadOnly: true, Wait: req.Wait, Log: req.Log}); err == nil {
-		prev, ferr := st.FindSameBuild(key, code)
+		prev, why, ferr := st.FindReuse(key, code)
 		st.Close()
 		if ferr != nil {
 			return nil, ferr
 		}
+		out.Reason = why
 		if prev != nil && !req.Force {
 			out.Record, out.Cached = prev, true
 			return out, nil
@@ -94,6 +113,8 @@ func RunAndStore(dir string, req RunRequest, compute Computer) (*RunOutcome, err
 		}
 	} else if !errors.Is(err, ErrNoArchive) {
 		return nil, err
+	} else {
+		out.Reason = "the archive holds no record of this input"
 	}
 	rec, err := Compute(req, code, lineage, compute)
 	if err != nil {

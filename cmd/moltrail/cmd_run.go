@@ -188,13 +188,15 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 	rec := out.Record
 	switch {
 	case out.Cached:
-		fmt.Fprintf(stderr, "moltrail run: record %s (computed %s) already holds this input at this code version; nothing was computed (--force computes again)\n", rec.ID[:12], utc(rec.Run.StartUTC))
+		fmt.Fprintf(stderr, "moltrail run: reused, nothing was computed: %s (computed %s; --force computes again)\n", out.Reason, utc(rec.Run.StartUTC))
 		if len(tagMap) > 0 && !maps.Equal(tagMap, rec.Tags) {
 			fmt.Fprintln(stderr, "moltrail run: the stored record keeps its own tags; the --tag values given now were not applied (use --force, or `moltrail note`)")
 		}
 	case out.Recomputed != nil:
+		fmt.Fprintf(stderr, "moltrail run: computed again because of --force, although %s\n", out.Reason)
 		fmt.Fprintf(stderr, "moltrail run: stored record %s, a recomputation of %s\n", rec.ID[:12], out.Recomputed.ID[:12])
 	default:
+		fmt.Fprintf(stderr, "moltrail run: computed, because %s\n", out.Reason)
 		fmt.Fprintf(stderr, "moltrail run: stored record %s in %s\n", rec.ID[:12], af.path())
 	}
 	if *asJSON {

@@ -373,6 +373,6 @@ func cmdVersion(args []string, stdout, stderr io.Writer) int {
 	if c.Modified {
 		rev += " (modified tree)"
 	}
-	fmt.Fprintf(stdout, "moltrail %s, %s, %s %s/%s, job encoding %s, record format %s\n", c.Version, rev, c.GoVersion, c.OS, c.Arch, c.CanonicalVersion, archive.RecordFormat)
+	fmt.Fprintf(stdout, "moltrail %s, source sha256 %s, %s, %s %s/%s, job encoding %s, record format %s\n", c.Version, c.SourceSHA256, rev, c.GoVersion, c.OS, c.Arch, c.CanonicalVersion, archive.RecordFormat)
 	return exitOK
 }

@@ -185,6 +185,11 @@ func writeRecord(w io.Writer, r *archive.Record, notes []archive.Note, look arch
 	kv("program", "%s %s", c.Program, c.Version)
 	kv("revision", "%s", rev)
 	kv("build", "%s %s/%s", c.GoVersion, c.OS, c.Arch)
+	if c.SourceSHA256 != "" {
+		kv("source sha256", "%s  (the code identity reuse matches on)", c.SourceSHA256)
+	} else {
+		kv("source sha256", "(not recorded by this build)")
+	}
 	kv("executable sha256", "%s", c.ExecutableSHA256)
 	kv("job encoding", "%s", c.CanonicalVersion)
 
