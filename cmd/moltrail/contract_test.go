@@ -116,6 +116,9 @@ func TestBadInputContract(t *testing.T) {
 		{"unknown command", []string{"frobnicate"}, `"frobnicate" is not a command`},
 		{"help for unknown command", []string{"help", "frobnicate"}, `"frobnicate" is not a command`},
 		{"version argument", []string{"version", "extra"}, `unexpected argument "extra"`},
+		{"command flag before the command", []string{"--method", "hf", "list", "--archive", f.arch}, "--method before the command: only --archive, --wait and --json"},
+		{"global flag without its value", []string{"--archive"}, "--archive needs a value"},
+		{"global flags without a command", []string{"--archive", f.arch, "--json"}, "give a command after --archive"},
 		// Archive places.
 		{"archive is a file (read)", []string{"list", "--archive", plain}, "is a file, not an archive directory"},
 		{"archive is a file (run)", []string{"run", "--archive", plain, f.xyz}, "is a file, not an archive directory"},
@@ -460,6 +463,62 @@ func TestHumanOutputForms(t *testing.T) {
 	}{{-1e-17, 6, "0.000000"}, {-0.0, 3, "0.000"}, {-0.0000004, 6, "0.000000"}, {-0.0000006, 6, "-0.000001"}, {-76.5, 1, "-76.5"}} {
 		if got := fixed(c.v, c.prec); got != c.want {
 			t.Errorf("fixed(%g, %d) = %q, want %q", c.v, c.prec, got, c.want)
+		}
+	}
+}
+
+// TestReuseSaysWhy: every run says in one line why it computed or reused:
+// no record of the input, the same code identity, a record made from other
+// source, or --force.
+func TestReuseSaysWhy(t *testing.T) {
+	d := t.TempDir()
+	arch := filepath.Join(d, "arch")
+	xyz := writeFile(t, d, "h2.xyz", h2XYZ)
+	first := call("run", "--archive", arch, "--basis", "sto-3g", "--json", xyz)
+	rec := decodeRecord(t, first.stdout)
+	other := *rec
+	other.Code.SourceSHA256 = strings.Repeat("0", 64)
+	other.Lineage, other.ID = nil, ""
+	if err := other.Seal(); err != nil {
+		t.Fatal(err)
+	}
+	enc, _ := other.Encode()
+	arch2 := filepath.Join(d, "arch2")
+	if r := call("import", "--archive", arch2, writeFile(t, d, "other.jsonl", string(enc)+"\n")); r.code != 0 {
+		t.Fatalf("import: %s", r.stderr)
+	}
+	for _, c := range []struct {
+		name string
+		r    result
+		want string
+	}{
+		{"nothing stored", first, "moltrail run: computed, because the archive holds no record of this input\n"},
+		{"same code", call("run", "--archive", arch, "--basis", "sto-3g", xyz),
+			"moltrail run: reused, nothing was computed: record " + rec.ID[:12] + " holds this input and was made by this code: the same source (sha256 " + archive.CurrentCode().SourceSHA256[:12] + "…)"},
+		{"other source", call("run", "--archive", arch2, "--basis", "sto-3g", xyz),
+			"moltrail run: computed, because the archive holds 1 record(s) of this input, none made by this code (newest, record " + other.ID[:12] + ": it was made from other source (source sha256 000000000000…"},
+		{"forced", call("run", "--archive", arch, "--basis", "sto-3g", "--force", xyz),
+			"moltrail run: computed again because of --force, although record " + rec.ID[:12] + " holds this input"},
+	} {
+		if c.r.code != 0 || !strings.Contains(c.r.stderr, c.want) {
+			t.Errorf("%s: exit %d, stderr should say %q:\n%s", c.name, c.r.code, c.want, c.r.stderr)
+		}
+	}
+}
+
+// TestGlobalFlagsBeforeCommand: --archive, --wait and --json may come
+// before the command name and mean what they mean after it.
+func TestGlobalFlagsBeforeCommand(t *testing.T) {
+	f := newContractFixture(t)
+	for _, c := range []struct{ before, after []string }{
+		{[]string{"--archive", f.arch, "list"}, []string{"list", "--archive", f.arch}},
+		{[]string{"--archive=" + f.arch, "--json", "list"}, []string{"list", "--json", "--archive", f.arch}},
+		{[]string{"--json", "--archive", f.arch, "--wait", "1s", "show", f.ids[0][:8]}, []string{"show", f.ids[0][:8], "--json", "--archive", f.arch}},
+		{[]string{"--archive", f.arch, "verify", "--json"}, []string{"verify", "--archive", f.arch, "--json"}},
+	} {
+		b, a := call(c.before...), call(c.after...)
+		if b.code != 0 || b.stdout != a.stdout || b.code != a.code {
+			t.Errorf("%q: exit %d, stdout differs from %q:\n%s\n---\n%s (%s)", c.before, b.code, c.after, b.stdout, a.stdout, b.stderr)
 		}
 	}
 }

@@ -71,6 +71,11 @@ func dispatch(args []string, stdout, stderr io.Writer) (code int) {
 		usage(stderr)
 		return exitUsage
 	}
+	args, err := hoistGlobalFlags(args)
+	if err != nil {
+		fmt.Fprintf(stderr, "moltrail: %v\n", err)
+		return exitUsage
+	}
 	errs := &stream{Writer: stderr, out: stdout}
 	switch args[0] {
 	case "help", "-h", "-help", "--help":
@@ -95,10 +100,57 @@ func dispatch(args []string, stdout, stderr io.Writer) (code int) {
 	return c.Run(args[1:], stdout, errs)
 }
 
+// globalFlags may stand before the command name; the value says whether
+// the flag takes one.
+var globalFlags = map[string]bool{"archive": true, "wait": true, "json": false}
+
+// hoistGlobalFlags moves the flags given before the command name
+// (moltrail --archive DIR list) to just after it, where the command reads
+// them as its own.
+func hoistGlobalFlags(args []string) ([]string, error) {
+	var lead []string
+	i := 0
+	for ; i < len(args); i++ {
+		a := args[i]
+		if len(a) < 2 || a[0] != '-' || a == "--" {
+			break
+		}
+		switch a {
+		case "-h", "-help", "--help", "--version":
+			if len(lead) == 0 {
+				return args, nil
+			}
+			return nil, fmt.Errorf("%s cannot follow %s; give the command first (moltrail help lists them)", a, lead[0])
+		}
+		name, _, hasValue := strings.Cut(strings.TrimLeft(a, "-"), "=")
+		takes, ok := globalFlags[name]
+		if !ok {
+			return nil, fmt.Errorf("%s before the command: only --archive, --wait and --json may come before it; give the command first (moltrail COMMAND %s)", a, a)
+		}
+		lead = append(lead, a)
+		if takes && !hasValue {
+			if i+1 >= len(args) {
+				return nil, fmt.Errorf("--%s needs a value", name)
+			}
+			i++
+			lead = append(lead, args[i])
+		}
+	}
+	if len(lead) == 0 {
+		return args, nil
+	}
+	if i >= len(args) || args[i] == "--" {
+		return nil, fmt.Errorf("give a command after %s (moltrail help lists them)", strings.Join(lead, " "))
+	}
+	out := append([]string{args[i]}, lead...)
+	return append(out, args[i+1:]...), nil
+}
+
 func usage(w io.Writer) {
 	fmt.Fprintln(w, "moltrail — calculations with a memory")
 	fmt.Fprintln(w, "")
 	fmt.Fprintln(w, "usage: moltrail COMMAND [flags] [arguments]   (moltrail help COMMAND for its flags)")
+	fmt.Fprintln(w, "       --archive DIRECTORY, --wait TIME and --json may also come before the command")
 	fmt.Fprintln(w, "")
 	var names []string
 	for n := range commands {
