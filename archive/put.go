@@ -230,6 +230,8 @@ type Filter struct {
 	Status   string
 	Tags     []string // "key=value", all must match
 	Since    time.Time
+	// Until: only records started before it (zero: no bound).
+	Until    time.Time
 	InputKey string
 }
 
@@ -311,10 +313,14 @@ func (s *Store) matchIDs(txn *badger.Txn, f Filter) ([]string, error) {
 		sets = append(sets, scanIDs(txn, []byte(pTime), since))
 	}
 	sort.Slice(sets, func(i, j int) bool { return len(sets[i]) < len(sets[j]) })
+	until := ""
+	if !f.Until.IsZero() {
+		until = tsHex(f.Until)
+	}
 	type tid struct{ ts, id string }
 	var hits []tid
 	for id, ts := range sets[0] {
-		ok := true
+		ok := until == "" || ts < until
 		for _, o := range sets[1:] {
 			if _, in := o[id]; !in {
 				ok = false
@@ -362,21 +368,26 @@ func (s *Store) Count() (int, error) {
 
 // ParseSince reads a --since value: a date (2006-01-02), an RFC 3339 time,
 // or a duration before now ("36h", "7d").
-func ParseSince(v string, now time.Time) (time.Time, error) {
-	v = strings.TrimSpace(v)
-	if t, err := time.Parse("2006-01-02", v); err == nil {
-		return t, nil
+func ParseSince(v string, now time.Time) (time.Time, error) { return ParseTimeFlag("since", v, now) }
+
+// ParseTimeFlag reads the value of a time flag (--since, --until): a date
+// (2006-01-02, midnight UTC), an RFC 3339 time, or a duration before now
+// ("36h", "7d"). The error names the flag.
+func ParseTimeFlag(flag, v string, now time.Time) (time.Time, error) {
+	t := strings.TrimSpace(v)
+	if d, err := time.Parse("2006-01-02", t); err == nil {
+		return d, nil
 	}
-	if t, err := time.Parse(time.RFC3339Nano, v); err == nil {
-		return t, nil
+	if d, err := time.Parse(time.RFC3339Nano, t); err == nil {
+		return d, nil
 	}
-	if strings.HasSuffix(v, "d") {
-		if n, err := strconv.Atoi(strings.TrimSuffix(v, "d")); err == nil && n >= 0 {
+	if strings.HasSuffix(t, "d") {
+		if n, err := strconv.Atoi(strings.TrimSuffix(t, "d")); err == nil && n >= 0 {
 			return now.Add(-time.Duration(n) * 24 * time.Hour), nil
 		}
 	}
-	if d, err := time.ParseDuration(v); err == nil && d >= 0 {
+	if d, err := time.ParseDuration(t); err == nil && d >= 0 {
 		return now.Add(-d), nil
 	}
-	return time.Time{}, fmt.Errorf("--since %q is not a date (2006-01-02), an RFC 3339 time or a duration back from now (36h, 7d)", v)
+	return time.Time{}, fmt.Errorf("--%s %q is not a date (2006-01-02), an RFC 3339 time or a duration back from now (36h, 7d)", flag, v)
 }

@@ -21,8 +21,8 @@ func init() {
 }
 
 type filterFlags struct {
-	molecule, formula, method, basis, status, since string
-	tags                                            multiFlag
+	molecule, formula, method, basis, status, since, until string
+	tags                                                   multiFlag
 }
 
 func addFilterFlags(fs *flag.FlagSet) *filterFlags {
@@ -33,7 +33,8 @@ func addFilterFlags(fs *flag.FlagSet) *filterFlags {
 	fs.StringVar(&f.basis, "basis", "", "basis set `NAME`")
 	fs.StringVar(&f.status, "status", "", "the `STATUS`: converged, not_converged or failed")
 	fs.Var(&f.tags, "tag", "`KEY=VALUE` (repeatable; all must match)")
-	fs.StringVar(&f.since, "since", "", "start `TIME` at or after: 2006-01-02, an RFC 3339 time, or a span back from now (36h, 7d)")
+	fs.StringVar(&f.since, "since", "", "records started at or after `TIME`: 2006-01-02, an RFC 3339 time, or a span back from now (36h, 7d)")
+	fs.StringVar(&f.until, "until", "", "records started before `TIME` (same forms as --since)")
 	return f
 }
 
@@ -49,12 +50,19 @@ func (f *filterFlags) filter() (archive.Filter, error) {
 			return out, fmt.Errorf("--tag %q must be KEY=VALUE", t)
 		}
 	}
-	if f.since != "" {
-		t, err := archive.ParseSince(f.since, time.Now())
+	now := time.Now()
+	for _, tf := range []struct {
+		name, v string
+		dst     *time.Time
+	}{{"since", f.since, &out.Since}, {"until", f.until, &out.Until}} {
+		if tf.v == "" {
+			continue
+		}
+		t, err := archive.ParseTimeFlag(tf.name, tf.v, now)
 		if err != nil {
 			return out, err
 		}
-		out.Since = t
+		*tf.dst = t
 	}
 	return out, nil
 }

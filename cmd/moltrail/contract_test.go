@@ -522,3 +522,41 @@ func TestGlobalFlagsBeforeCommand(t *testing.T) {
 		}
 	}
 }
+
+// TestUntilBesideSince: every command that takes --since takes --until,
+// and the two bound the records by their start time.
+func TestUntilBesideSince(t *testing.T) {
+	for name := range commands {
+		help := call(name, "--help").stdout
+		if strings.Contains(help, "--since ") != strings.Contains(help, "--until ") {
+			t.Errorf("%s takes one of --since and --until but not the other", name)
+		}
+	}
+	f := newContractFixture(t)
+	count := func(args ...string) int {
+		r := call(append([]string{"list", "--archive", f.arch, "--json"}, args...)...)
+		var sums []archive.Summary
+		if err := json.Unmarshal([]byte(r.stdout), &sums); err != nil {
+			t.Fatalf("list %q: %v (%s)", args, err, r.stderr)
+		}
+		return len(sums)
+	}
+	for _, c := range []struct {
+		args []string
+		want int
+	}{
+		{nil, 2},
+		{[]string{"--until", "2000-01-01"}, 0},
+		{[]string{"--until", "2999-01-01"}, 2},
+		{[]string{"--since", "2000-01-01", "--until", "0s"}, 2},
+		{[]string{"--since", "2999-01-01"}, 0},
+	} {
+		if got := count(c.args...); got != c.want {
+			t.Errorf("list %q: %d records, want %d", c.args, got, c.want)
+		}
+	}
+	for _, args := range [][]string{{"export", "--out", "-"}, {"trace", "1.0"}, {"reproduce", "--all"}} {
+		r := call(append(append(args, "--archive", f.arch), "--until", "not a time")...)
+		checkRefusal(t, r, exitUsage, `--until "not a time" is not a date`)
+	}
+}

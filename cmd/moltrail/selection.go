@@ -5,7 +5,6 @@ import (
 	"fmt"
 	"io"
 	"strings"
-	"time"
 
 	"moltrail/archive"
 	"moltrail/compare"
@@ -17,7 +16,6 @@ import (
 type comparisonFlags struct {
 	filter  *filterFlags
 	refs    *string
-	until   *string
 	samples *int
 	seed    *uint64
 }
@@ -33,7 +31,6 @@ func addComparisonFlags(fs *flag.FlagSet) *comparisonFlags {
 	return &comparisonFlags{
 		filter:  addFilterFlags(fs),
 		refs:    fs.String("refs", "", "reference `SET`: builtin (all built-in sets), a built-in set name ("+strings.Join(compare.BuiltinNames(), ", ")+") or a reference-set JSON file"),
-		until:   fs.String("until", "", "start `TIME` before: 2006-01-02 or an RFC 3339 time"),
 		samples: fs.Int("bootstrap", compare.DefaultOptions.BootstrapSamples, "bootstrap resamples for confidence intervals (100–1000000)"),
 		seed:    fs.Uint64("seed", compare.DefaultOptions.Seed, "seed of the bootstrap random stream (fixed: same input, same output)"),
 	}
@@ -44,7 +41,6 @@ func addComparisonFlags(fs *flag.FlagSet) *comparisonFlags {
 type comparison struct {
 	set     *compare.RefSet
 	filter  archive.Filter
-	before  time.Time // zero: no upper bound
 	options compare.Options
 }
 
@@ -62,13 +58,6 @@ func (c *comparisonFlags) resolve() (*comparison, error) {
 		return nil, err
 	}
 	out := &comparison{filter: f, options: compare.Options{BootstrapSamples: *c.samples, Seed: *c.seed}}
-	if *c.until != "" {
-		t, err := archive.ParseSince(*c.until, time.Now())
-		if err != nil {
-			return nil, fmt.Errorf("--until %q is not a date (2006-01-02), an RFC 3339 time or a duration back from now (36h, 7d)", *c.until)
-		}
-		out.before = t
-	}
 	if out.set, err = compare.LoadRefSet(*c.refs); err != nil {
 		return nil, err
 	}
@@ -76,12 +65,11 @@ func (c *comparisonFlags) resolve() (*comparison, error) {
 }
 
 // selectRecordsForComparison returns the stored records that a comparison
-// with set considers: those the filter admits, started before `before`
-// (unless it is zero), and named like a molecule of the set (a name or an
-// alias). It decides nothing more: compare.Compare picks the newest
+// with set considers: those the filter admits (--since and --until
+// included) and named like a molecule of the set (a name or an alias). It decides nothing more: compare.Compare picks the newest
 // converged record per molecule and level among them and lists the rest
 // as left out. Records come in the archive's listing order.
-func selectRecordsForComparison(st *archive.Store, set *compare.RefSet, f archive.Filter, before time.Time) ([]*archive.Record, error) {
+func selectRecordsForComparison(st *archive.Store, set *compare.RefSet, f archive.Filter) ([]*archive.Record, error) {
 	sums, err := st.List(f)
 	if err != nil {
 		return nil, err
@@ -90,12 +78,6 @@ func selectRecordsForComparison(st *archive.Store, set *compare.RefSet, f archiv
 	for _, s := range sums {
 		if !set.Names(s.Molecule) {
 			continue
-		}
-		if !before.IsZero() {
-			t, err := time.Parse(time.RFC3339Nano, s.StartUTC)
-			if err == nil && !t.Before(before) {
-				continue
-			}
 		}
 		r, _, err := st.Get(s.ID)
 		if err != nil {
@@ -115,7 +97,7 @@ func compareArchive(af *archiveFlags, c *comparison, stderr io.Writer) (tab *com
 		return nil, nil, code, err
 	}
 	defer st.Close()
-	if recs, err = selectRecordsForComparison(st, c.set, c.filter, c.before); err != nil {
+	if recs, err = selectRecordsForComparison(st, c.set, c.filter); err != nil {
 		return nil, nil, exitFailed, err
 	}
 	if tab, err = compare.Compare(c.set, recs, c.options); err != nil {
