@@ -5,7 +5,6 @@ import (
 	"fmt"
 	"io"
 	"path"
-	"runtime"
 	"sort"
 	"strings"
 
@@ -59,7 +58,7 @@ func cmdDemo(args []string, stdout, stderr io.Writer) int {
 	af := addArchiveFlags(fs)
 	out := fs.String("out", "moltrail-demo.pdf", "the document to write")
 	quick := fs.Bool("quick", false, "a smaller scenario (three diatomics, the triple-zeta basis only) for a first look")
-	jobs := fs.Int("jobs", runtime.NumCPU(), "calculations run at once; each gets max(1, cores/jobs) threads")
+	jobs := addJobsFlag(fs)
 	asJSON := fs.Bool("json", false, "print one JSON summary on stdout")
 	pos, code, ok := parseFlags(fs, args)
 	if !ok {

@@ -102,8 +102,9 @@ func cmdReport(args []string, stdout, stderr io.Writer) int {
 			*o.dst = *o.v
 		}
 	}
-	fs.Visit(func(f *flag.Flag) {
-		if comparisonFlagNames[f.Name] {
+	// The flags given, and the reference set even when it is the default.
+	fs.VisitAll(func(f *flag.Flag) {
+		if comparisonFlagNames[f.Name] && (isSet(fs, f.Name) || f.Name == "refs") {
 			opts.Selection = append(opts.Selection, "--"+f.Name+"="+f.Value.String())
 		}
 	})

@@ -3,11 +3,13 @@ package main
 import (
 	"bytes"
 	"context"
+	"flag"
 	"fmt"
 	"io"
 	"os"
 	"os/signal"
 	"reflect"
+	"runtime"
 	"sort"
 	"strings"
 	"sync"
@@ -64,7 +66,7 @@ type studyRun struct {
 func cmdStudy(args []string, stdout, stderr io.Writer) int {
 	fs := newFlags("study", stderr, "[flags] STUDY.json\n\n"+studyHelp)
 	af := addArchiveFlags(fs)
-	jobs := fs.Int("jobs", 1, "calculations run at once; each gets max(1, cores/jobs) threads")
+	jobs := addJobsFlag(fs)
 	threads := fs.Int("threads", 0, "threads per calculation (0 = max(1, cores/jobs)); never changes a number")
 	dry := fs.Bool("dry-run", false, "list what would be computed and what would be reused; compute nothing")
 	asJSON := fs.Bool("json", false, "print one JSON summary on stdout")
@@ -152,6 +154,12 @@ func cmdStudy(args []string, stdout, stderr io.Writer) int {
 		code = exitFailed
 	}
 	return code
+}
+
+// addJobsFlag is the --jobs flag of study and demo: one default for both,
+// a calculation per core.
+func addJobsFlag(fs *flag.FlagSet) *int {
+	return fs.Int("jobs", runtime.NumCPU(), "calculations run at once (default: one per core); each gets max(1, cores/jobs) threads")
 }
 
 // studyRefs is the study's reference set argument: a built-in name as

@@ -150,7 +150,7 @@ func TestBadInputContract(t *testing.T) {
 		{"import truncated", []string{"import", "--archive", f.arch, writeFile(t, d, "cut.jsonl", line1[:len(line1)/2])}, "cut.jsonl:1: the last line is incomplete"},
 		{"import wrong schema", []string{"import", "--archive", f.arch, writeFile(t, d, "schema.jsonl", `{"id": "x"}`+"\n")}, "schema.jsonl:1: field /: missing properties"},
 		// Reference sets.
-		{"refs missing", []string{"compare", "--archive", f.arch}, "--refs is required"},
+		{"refs empty", []string{"compare", "--archive", f.arch, "--refs", ""}, "reference set"},
 		{"refs unknown set", []string{"compare", "--archive", f.arch, "--refs", "no-such-set"}, `reference set "no-such-set" is neither a built-in set`},
 		{"refs unknown molecule formula", []string{"compare", "--archive", f.arch, "--refs", refs("mol.json", strings.Replace(okEntry, `"formula": "H2"`, `"formula": "Uo2"`, 1))}, `entry "h.r"`},
 		{"refs unknown unit", []string{"compare", "--archive", f.arch, "--refs", refs("unit.json", strings.Replace(okEntry, `"pm"`, `"furlong"`, 1))}, `entry "h.r" (hydrogen): unit "furlong" is not known`},
@@ -558,5 +558,33 @@ func TestUntilBesideSince(t *testing.T) {
 	for _, args := range [][]string{{"export", "--out", "-"}, {"trace", "1.0"}, {"reproduce", "--all"}} {
 		r := call(append(append(args, "--archive", f.arch), "--until", "not a time")...)
 		checkRefusal(t, r, exitUsage, `--until "not a time" is not a date`)
+	}
+}
+
+// TestCompareDefaultsToBuiltin: without --refs, compare (and report) use
+// the built-in reference sets.
+func TestCompareDefaultsToBuiltin(t *testing.T) {
+	f := newContractFixture(t)
+	for _, args := range [][]string{{"compare", "--json"}, {"compare", "--csv"}, {"report", "--format", "md"}} {
+		a := call(append(args, "--archive", f.arch)...)
+		b := call(append(args, "--archive", f.arch, "--refs", "builtin")...)
+		if a.code != 0 || a.stdout != b.stdout {
+			t.Errorf("%q without --refs: exit %d (%s); output differs from --refs builtin", args, a.code, a.stderr)
+		}
+	}
+}
+
+// TestOneJobsDefault: study and demo share one --jobs default.
+func TestOneJobsDefault(t *testing.T) {
+	line := func(cmd string) string {
+		for _, l := range strings.Split(call(cmd, "--help").stdout, "\n") {
+			if strings.HasPrefix(strings.TrimSpace(l), "--jobs ") {
+				return strings.TrimSpace(l)
+			}
+		}
+		return ""
+	}
+	if s, d := line("study"), line("demo"); s == "" || s != d {
+		t.Errorf("--jobs differs between study and demo:\n%s\n%s", s, d)
 	}
 }

@@ -30,7 +30,7 @@ var comparisonFlagNames = map[string]bool{
 func addComparisonFlags(fs *flag.FlagSet) *comparisonFlags {
 	return &comparisonFlags{
 		filter:  addFilterFlags(fs),
-		refs:    fs.String("refs", "", "reference `SET`: builtin (all built-in sets), a built-in set name ("+strings.Join(compare.BuiltinNames(), ", ")+") or a reference-set JSON file"),
+		refs:    fs.String("refs", "builtin", "reference `SET`: builtin (all built-in sets), a built-in set name ("+strings.Join(compare.BuiltinNames(), ", ")+") or a reference-set JSON file"),
 		samples: fs.Int("bootstrap", compare.DefaultOptions.BootstrapSamples, "bootstrap resamples for confidence intervals (100–1000000)"),
 		seed:    fs.Uint64("seed", compare.DefaultOptions.Seed, "seed of the bootstrap random stream (fixed: same input, same output)"),
 	}
@@ -47,9 +47,6 @@ type comparison struct {
 // resolve checks the flags and loads the reference set; every error is
 // bad usage or input (exitUsage).
 func (c *comparisonFlags) resolve() (*comparison, error) {
-	if *c.refs == "" {
-		return nil, fmt.Errorf("--refs is required (builtin, one of %s, or a file)", strings.Join(compare.BuiltinNames(), ", "))
-	}
 	if *c.samples < 100 || *c.samples > 1000000 {
 		return nil, fmt.Errorf("--bootstrap %d is outside 100–1000000", *c.samples)
 	}
