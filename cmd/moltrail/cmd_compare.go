@@ -12,7 +12,7 @@ func init() {
 }
 
 func cmdCompare(args []string, stdout, stderr io.Writer) int {
-	fs := newFlags("compare", stderr, "--refs builtin|SET|FILE [filters] [--json | --csv | --csv-stats]")
+	fs := newFlags("compare", stderr, "[--refs SET] [filters] [--json | --csv | --csv-stats]")
 	af := addArchiveFlags(fs)
 	cf := addComparisonFlags(fs)
 	asJSON := fs.Bool("json", false, "print the whole comparison as one JSON value")

@@ -54,9 +54,9 @@ type demoCaution struct {
 }
 
 func cmdDemo(args []string, stdout, stderr io.Writer) int {
-	fs := newFlags("demo", stderr, "[--out moltrail-demo.pdf] [--quick] [--jobs N] [--archive DIR] [--json]")
+	fs := newFlags("demo", stderr, "[--out FILE.pdf] [--quick] [--jobs N] [--archive DIRECTORY] [--json]")
 	af := addArchiveFlags(fs)
-	out := fs.String("out", "moltrail-demo.pdf", "the document to write")
+	out := fs.String("out", "moltrail-demo.pdf", "the PDF `FILE` to write")
 	quick := fs.Bool("quick", false, "a smaller scenario (three diatomics, the triple-zeta basis only) for a first look")
 	jobs := addJobsFlag(fs)
 	asJSON := fs.Bool("json", false, "print one JSON summary on stdout")

@@ -32,7 +32,7 @@ func addFilterFlags(fs *flag.FlagSet) *filterFlags {
 	fs.StringVar(&f.method, "method", "", "the `METHOD`")
 	fs.StringVar(&f.basis, "basis", "", "basis set `NAME`")
 	fs.StringVar(&f.status, "status", "", "the `STATUS`: converged, not_converged or failed")
-	fs.Var(&f.tags, "tag", "`KEY=VALUE` (repeatable; all must match)")
+	fs.Var(&f.tags, "tag", "records with the tag `KEY=VALUE` (repeatable; all must match)")
 	fs.StringVar(&f.since, "since", "", "records started at or after `TIME`: 2006-01-02, an RFC 3339 time, or a span back from now (36h, 7d)")
 	fs.StringVar(&f.until, "until", "", "records started before `TIME` (same forms as --since)")
 	return f
@@ -223,7 +223,7 @@ func cmdVerify(args []string, stdout, stderr io.Writer) int {
 }
 
 func cmdExport(args []string, stdout, stderr io.Writer) int {
-	fs := newFlags("export", stderr, "--out F.jsonl [filters]")
+	fs := newFlags("export", stderr, "--out FILE.jsonl [filters]")
 	af := addArchiveFlags(fs)
 	ff := addFilterFlags(fs)
 	out := fs.String("out", "", "output `FILE` (JSON lines; - for stdout)")
@@ -278,7 +278,7 @@ func cmdExport(args []string, stdout, stderr io.Writer) int {
 }
 
 func cmdImport(args []string, stdout, stderr io.Writer) int {
-	fs := newFlags("import", stderr, "F.jsonl [--json]")
+	fs := newFlags("import", stderr, "FILE.jsonl [--json]")
 	af := addArchiveFlags(fs)
 	asJSON := fs.Bool("json", false, "print the summary as JSON")
 	pos, code, ok := parseFlags(fs, args)

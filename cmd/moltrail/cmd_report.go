@@ -19,7 +19,7 @@ func init() {
 }
 
 func cmdReport(args []string, stdout, stderr io.Writer) int {
-	fs := newFlags("report", stderr, "--refs builtin|SET|FILE --out F.pdf [filters] [--title T --author A --affiliation X --date D | --config F.json] [--format pdf|csv|md] [--json]")
+	fs := newFlags("report", stderr, "[--refs SET] --out FILE.pdf [filters] [--title TITLE --author AUTHOR --affiliation AFFILIATION --date DATE | --config FILE.json] [--format FORMAT] [--json]")
 	af := addArchiveFlags(fs)
 	cf := addComparisonFlags(fs)
 	out := fs.String("out", "", "output `FILE` (required for PDF; CSV and Markdown go to stdout without it)")

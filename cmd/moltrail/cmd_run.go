@@ -50,7 +50,7 @@ func memoryLimit(s string) (int64, error) {
 }
 
 func cmdRun(args []string, stdout, stderr io.Writer) int {
-	fs := newFlags("run", stderr, "[flags] MOLECULE.xyz  |  [flags] --geometry-from ID")
+	fs := newFlags("run", stderr, "[flags] FILE.xyz  |  [flags] --geometry-from ID")
 	af := addArchiveFlags(fs)
 	method := fs.String("method", "hf", "the `METHOD`: "+joinNames(engine.MethodNames())+" (ccsd and ccsd(t) need a closed-shell RHF reference: open shells are refused)")
 	basisName := fs.String("basis", "cc-pvdz", "basis set `NAME` or alias (moltrail basis lists them), or a basis JSON file")
@@ -59,7 +59,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 	task := fs.String("task", "energy", "the `TASK`: energy or optimize")
 	frozen := fs.Bool("frozen-core", false, "correlated methods: freeze the chemical core")
 	var tags multiFlag
-	fs.Var(&tags, "tag", "`KEY=VALUE` stored with the record (repeatable)")
+	fs.Var(&tags, "tag", "a tag `KEY=VALUE` stored with the record (repeatable)")
 	force := fs.Bool("force", false, "compute again even if the archive holds this input at this code version")
 	asJSON := fs.Bool("json", false, "print the stored record as JSON")
 	name := fs.String("name", "", "molecule `NAME` (default: the XYZ comment line)")
@@ -86,7 +86,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 	ccETol := fs.Float64("cc-energy-tol", engine.DefaultCC.EnergyTolHartree, "coupled cluster: converged when |ΔE| < this (hartree) …")
 	ccATol := fs.Float64("cc-amplitude-tol", engine.DefaultCC.AmplitudeTol, "coupled cluster: … and the RMS amplitude change < this")
 	ccMaxIter := fs.Int("cc-max-iter", engine.DefaultCC.MaxIter, "coupled cluster: iteration limit")
-	gradMethod := fs.String("gradient", "", "optimisation gradients: analytic or finite-difference (default: analytic for HF and DFT, finite-difference for the MP2 family)")
+	gradMethod := fs.String("gradient", "", "optimisation gradient `KIND`: analytic or finite-difference (default: analytic for HF and DFT, finite-difference for the MP2 family)")
 	pos, code, ok := parseFlags(fs, args)
 	if !ok {
 		return code

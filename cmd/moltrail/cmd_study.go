@@ -64,14 +64,14 @@ type studyRun struct {
 }
 
 func cmdStudy(args []string, stdout, stderr io.Writer) int {
-	fs := newFlags("study", stderr, "[flags] STUDY.json\n\n"+studyHelp)
+	fs := newFlags("study", stderr, "[flags] FILE.json\n\n"+studyHelp)
 	af := addArchiveFlags(fs)
 	jobs := addJobsFlag(fs)
 	threads := fs.Int("threads", 0, "threads per calculation (0 = max(1, cores/jobs)); never changes a number")
 	dry := fs.Bool("dry-run", false, "list what would be computed and what would be reused; compute nothing")
 	asJSON := fs.Bool("json", false, "print one JSON summary on stdout")
-	reportOut := fs.String("report", "", "after the run, write the supplementary-information PDF over exactly the study's records (overrides the study's report.output)")
-	refs := fs.String("refs", "", "reference set for --report: builtin, a built-in set name ("+strings.Join(compare.BuiltinNames(), ", ")+") or a file (default: the study's reference_set, else builtin)")
+	reportOut := fs.String("report", "", "after the run, write the supplementary-information PDF `FILE` over exactly the study's records (overrides the study's report.output)")
+	refs := fs.String("refs", "", "reference `SET` for --report: builtin, a built-in set name ("+strings.Join(compare.BuiltinNames(), ", ")+") or a file (default: the study's reference_set, else builtin)")
 	retry := fs.Bool("retry-failed", false, "compute again the items whose stored record failed or did not converge")
 	memFlag := addMemoryFlag(fs)
 	pos, code, ok := parseFlags(fs, args)
@@ -159,7 +159,7 @@ func cmdStudy(args []string, stdout, stderr io.Writer) int {
 // addJobsFlag is the --jobs flag of study and demo: one default for both,
 // a calculation per core.
 func addJobsFlag(fs *flag.FlagSet) *int {
-	return fs.Int("jobs", runtime.NumCPU(), "calculations run at once (default: one per core); each gets max(1, cores/jobs) threads")
+	return fs.Int("jobs", runtime.NumCPU(), "calculations run at once (one per core unless given); each gets max(1, cores/jobs) threads")
 }
 
 // studyRefs is the study's reference set argument: a built-in name as

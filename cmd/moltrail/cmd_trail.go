@@ -151,7 +151,7 @@ func num(v float64) string {
 }
 
 func cmdTrace(args []string, stdout, stderr io.Writer) int {
-	fs := newFlags("trace", stderr, "VALUE [--unit U] [filters] [--json]")
+	fs := newFlags("trace", stderr, "VALUE [--unit UNIT] [filters] [--json]")
 	af := addArchiveFlags(fs)
 	ff := addFilterFlags(fs)
 	unit := fs.String("unit", "", "`UNIT` of the figure: "+archive.UnitNames()+" (default: each quantity in its stored unit)")

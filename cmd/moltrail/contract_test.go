@@ -588,3 +588,73 @@ func TestOneJobsDefault(t *testing.T) {
 		t.Errorf("--jobs differs between study and demo:\n%s\n%s", s, d)
 	}
 }
+
+// placeholderWords are the value words help may use besides the flags'
+// own placeholders: a file is FILE (FILE.xyz names its kind), a record ID.
+var placeholderWords = map[string]bool{"ID": true, "FILE": true, "VALUE": true, "NAME": true, "TEXT": true}
+
+var helpFlagLine = regexp.MustCompile(`^  --([a-z0-9-]+)(?: (\S+))?(?:  |$)`)
+
+// TestPlaceholders: a flag's value has one placeholder word in every
+// command's help, and the synopsis uses the same words as the flag list.
+func TestPlaceholders(t *testing.T) {
+	seen := map[string]string{} // flag → placeholder
+	where := map[string]string{}
+	for name := range commands {
+		help := call(name, "--help").stdout
+		lines := strings.Split(help, "\n")
+		own := map[string]string{}
+		for _, l := range lines {
+			m := helpFlagLine.FindStringSubmatch(l)
+			if m == nil {
+				continue
+			}
+			own[m[1]] = m[2]
+			if m[2] == "" {
+				continue
+			}
+			if p, ok := seen[m[1]]; ok && p != m[2] {
+				t.Errorf("--%s is --%s %s in %s but --%s %s in %s", m[1], m[1], p, where[m[1]], m[1], m[2], name)
+			}
+			seen[m[1]], where[m[1]] = m[2], name
+		}
+		var synopsis string
+		for _, l := range lines {
+			if s, ok := strings.CutPrefix(l, "usage: moltrail "+name); ok {
+				synopsis = s
+			}
+		}
+		toks := strings.FieldsFunc(synopsis, func(r rune) bool { return strings.ContainsRune(" []|", r) })
+		for i, tok := range toks {
+			word := strings.TrimSuffix(tok, "…")
+			if b, _, ok := strings.Cut(word, "."); ok && b == strings.ToUpper(b) {
+				word = b
+			}
+			if flagName, ok := strings.CutPrefix(tok, "--"); ok {
+				p, known := own[flagName]
+				if !known {
+					t.Errorf("%s: the synopsis names --%s, which the command does not take", name, flagName)
+				}
+				if i+1 < len(toks) && toks[i+1] == strings.ToUpper(toks[i+1]) && !strings.HasPrefix(toks[i+1], "-") {
+					next, _, _ := strings.Cut(toks[i+1], ".")
+					if next != p {
+						t.Errorf("%s: the synopsis says --%s %s, the flag list --%s %s", name, flagName, toks[i+1], flagName, p)
+					}
+				}
+				continue
+			}
+			if word != strings.ToUpper(word) || word == "" {
+				continue // literal words: filters, flags
+			}
+			if !placeholderWords[word] {
+				found := false
+				for _, p := range own {
+					found = found || p == word
+				}
+				if !found {
+					t.Errorf("%s: the synopsis uses the word %s, which is neither a flag's placeholder nor one of the common ones", name, tok)
+				}
+			}
+		}
+	}
+}

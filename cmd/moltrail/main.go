@@ -161,7 +161,7 @@ func usage(w io.Writer) {
 		fmt.Fprintf(w, "  %-10s %s\n", n, commands[n].Summary)
 	}
 	fmt.Fprintln(w, "")
-	fmt.Fprintln(w, "archive: --archive DIR, else $MOLTRAIL_ARCHIVE, else ./moltrail-archive")
+	fmt.Fprintln(w, "archive: --archive DIRECTORY, else $MOLTRAIL_ARCHIVE, else ./moltrail-archive")
 	fmt.Fprintln(w, "exit status: 0 done, 1 the work failed or found a problem, 2 bad usage or input")
 }
 
