@@ -31,7 +31,7 @@ import (
 //go:embed archive/*.go archive/*/*.go
 //go:embed cmd/*/*.go cmd/moltrail/demo
 //go:embed compare/*.go compare/refsets/*.json
-//go:embed engine/*.go engine/*/*.go engine/basis/data/*.json
+//go:embed engine/*.go engine/*/*.go engine/*/*/*.go engine/basis/data/*.json
 //go:embed report/*.go
 //go:embed schemas/*.go schemas/*.json
 var source embed.FS
