@@ -71,7 +71,7 @@ func Either(ls ...Lookup) Lookup {
 // reference prefix). A method missing here prints in upper case.
 var methodNames = map[string]string{
 	"hf": "HF", "rhf": "HF", "uhf": "HF", "rohf": "HF",
-	"mp2": "MP2", "scs-mp2": "MP2",
+	"mp2": "MP2", "scs-mp2": "MP2", "ccsd": "CCSD", "ccsd(t)": "CCSD(T)",
 	"svwn5": "SVWN5", "blyp": "BLYP", "pbe": "PBE", "b3lyp": "B3LYP", "b3lyp5": "B3LYP5", "pbe0": "PBE0",
 }
 
@@ -168,6 +168,10 @@ func geometryLink(r *Record) string {
 		if l.Relation == GeometryFrom {
 			return l.ID
 		}
+	}
+	// A derived record is at the geometry of its (first) input.
+	if d := r.Derivation; d != nil && len(d.Inputs) > 0 {
+		return d.Inputs[0].ID
 	}
 	return ""
 }

@@ -66,6 +66,11 @@ func Quantities(r *Record) []Quantity {
 				add("quadrupole_buckingham."+c.n, KindQuadrupole, c.v)
 			}
 		}
+		if d := r.Derivation; d != nil {
+			for _, v := range d.Values {
+				add("derived."+v.Name, v.Kind, v.Value)
+			}
+		}
 	}
 	if st := res.Structure; st != nil {
 		for _, b := range st.Bonds {

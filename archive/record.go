@@ -81,6 +81,9 @@ type Record struct {
 	Lineage  []Link            `json:"lineage"`
 	Tags     map[string]string `json:"tags"`
 	Results  engine.Result     `json:"results"`
+	// Derivation is set on derived records only (derive.go): how Results
+	// follow from the records named there.
+	Derivation *Derivation `json:"derivation,omitempty"`
 	// Format is RecordFormat for records written by this package.
 	Format string `json:"record_format"`
 }
@@ -122,7 +125,7 @@ func (r *Record) Seal() error {
 	if r.Format == "" {
 		r.Format = RecordFormat
 	}
-	k, err := r.Input.InputKey()
+	k, err := r.inputKey()
 	if err != nil {
 		return err
 	}
@@ -151,7 +154,7 @@ func (r *Record) Check() error {
 	if r.Format != RecordFormat {
 		return fmt.Errorf("record_format is %q; this build reads %q", r.Format, RecordFormat)
 	}
-	k, err := r.Input.InputKey()
+	k, err := r.inputKey()
 	if err != nil {
 		return fmt.Errorf("input: %v", err)
 	}

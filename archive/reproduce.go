@@ -78,6 +78,8 @@ type Reproduction struct {
 	Checks     []Check     `json:"checks"`
 	Moved      []Check     `json:"moved"`
 	Code       []CodeDiff  `json:"code_differences"`
+	// Inputs are the reproductions of a derived record's inputs.
+	Inputs []*Reproduction `json:"inputs,omitempty"`
 }
 
 // Compare checks every quantity of b against a with a's tolerances.
@@ -111,6 +113,12 @@ func Compare(a, b *Record) (checks, moved []Check, statusMsg string) {
 
 // Reproducible says why a record's input cannot be run by this build, or "".
 func Reproducible(r *Record) string {
+	if r.Derivation != nil {
+		if _, ok := Recipes[r.Derivation.Recipe]; !ok {
+			return fmt.Sprintf("derivation recipe %q is no longer available", r.Derivation.Recipe)
+		}
+		return ""
+	}
 	job := r.Input
 	if _, ok := engine.Methods[job.Method]; !ok {
 		return fmt.Sprintf("method %q is no longer available", job.Method)
@@ -139,6 +147,16 @@ func Reproduce(dir, id string, req RunRequest, compute Computer) (*Reproduction,
 	st.Close()
 	if err != nil {
 		return nil, err
+	}
+	if orig.Derivation != nil {
+		if why := Reproducible(orig); why != "" {
+			return &Reproduction{Original: orig.ID, Molecule: orig.Input.Molecule.Name, Verdict: NotReproducible, Reason: why, Tolerances: []Tolerance{}, Checks: []Check{}, Moved: []Check{}, Code: []CodeDiff{}}, nil
+		}
+		rep, subs, err := ReproduceDerived(dir, id, req, compute)
+		if rep != nil {
+			rep.Inputs = subs
+		}
+		return rep, err
 	}
 	rep := &Reproduction{Original: orig.ID, Molecule: orig.Input.Molecule.Name, Checks: []Check{}, Moved: []Check{}, Code: DiffCode(orig.Code, CurrentCode())}
 	if rep.Code == nil {

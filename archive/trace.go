@@ -87,6 +87,10 @@ type TraceMatch struct {
 	Version     string  `json:"code_version"`
 	StartUTC    string  `json:"start_utc"`
 	Status      string  `json:"status"`
+	// Recipe and DerivedFrom are set for a derived record: the inputs it
+	// was combined from (trace each by its id).
+	Recipe      string         `json:"recipe,omitempty"`
+	DerivedFrom []DerivedInput `json:"derived_from,omitempty"`
 }
 
 // Trace finds every quantity of the given records that, expressed in the
@@ -123,10 +127,14 @@ func Trace(recs []*Record, printed string, unit string) ([]TraceMatch, PrintedVa
 			if !m && !mag {
 				continue
 			}
-			out = append(out, TraceMatch{RecordID: r.ID, Molecule: r.Input.Molecule.Name, Formula: r.Formula(), Quantity: q.Path,
+			tm := TraceMatch{RecordID: r.ID, Molecule: r.Input.Molecule.Name, Formula: r.Formula(), Quantity: q.Path,
 				Kind: q.Kind, Value: v, Unit: uname, MagnitudeOnly: mag, Level: LevelLabel(r, look), Method: r.Input.Method, Basis: r.Input.Basis.Name,
 				Angular: string(r.Input.Basis.Angular), EnergyTol: r.Input.SCF.EnergyTolHartree, DensityTol: r.Input.SCF.DensityTol,
-				GradientTol: r.Input.SCF.GradientTol, Revision: r.Code.Revision, Version: r.Code.Version, StartUTC: r.Run.StartUTC, Status: r.Status})
+				GradientTol: r.Input.SCF.GradientTol, Revision: r.Code.Revision, Version: r.Code.Version, StartUTC: r.Run.StartUTC, Status: r.Status}
+			if d := r.Derivation; d != nil {
+				tm.Recipe, tm.DerivedFrom = d.Recipe, d.Inputs
+			}
+			out = append(out, tm)
 		}
 	}
 	return out, pv, nil

@@ -206,6 +206,11 @@ func cmdTrace(args []string, stdout, stderr io.Writer) int {
 			fmt.Sprintf("%.0e", m.EnergyTol), codeLabel(m.Version, m.Revision), utc(m.StartUTC), note)
 	}
 	t.write(stdout)
+	for _, m := range ms {
+		for _, in := range m.DerivedFrom {
+			fmt.Fprintf(stdout, "%s is derived (%s): %s %s  %s/%s\n", m.RecordID[:12], m.Recipe, in.Role, in.ID[:12], in.Method, in.Basis)
+		}
+	}
 	fmt.Fprintf(stdout, "%d match(es). A match says only that the figure is consistent with a stored value; check the settings against the source of the figure.\n", len(ms))
 	return exitOK
 }

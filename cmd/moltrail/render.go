@@ -107,7 +107,10 @@ func writeRecord(w io.Writer, r *archive.Record, notes []archive.Note, look arch
 		kv("grid", "%s: %s %d radial × order %d angular, %s partition, pruning %s", g.Level, g.RadialScheme, g.RadialPoints, g.AngularOrder, g.Partition, g.Pruning)
 	}
 	if c := in.Correlation; c != nil {
-		kv("correlation", "frozen core %v, relaxed properties %s (field step %g au)", c.FrozenCore, c.RelaxedProperties, c.FieldStepAU)
+		kv("correlation", "frozen core %v, relaxed properties %s (field step %g au%s)", c.FrozenCore, c.RelaxedProperties, c.FieldStepAU, strings.TrimSuffix(", "+c.FieldFormula, ", "))
+		if k := c.CC; k != nil {
+			kv("coupled cluster", "|ΔE| < %g hartree, rms Δt < %g, ≤ %d iterations, DIIS %d, %s integrals", k.EnergyTolHartree, k.AmplitudeTol, k.MaxIter, k.DIISSize, k.Integrals)
+		}
 	}
 	kv("multipole origin", "%s", in.Origin.Kind)
 	if o := in.Opt; o != nil {
@@ -128,6 +131,14 @@ func writeRecord(w io.Writer, r *archive.Record, notes []archive.Note, look arch
 		kv("scf energy", "%s hartree", fixed(res.SCFEnergyHartree, 10))
 		if res.CorrelationEnergyHartree != nil {
 			kv("correlation energy", "%s hartree", fixed(*res.CorrelationEnergyHartree, 10))
+		}
+		if c := res.CoupledCluster; c != nil {
+			t := ""
+			if c.TriplesHartree != nil {
+				t = ", (T) " + fixed(*c.TriplesHartree, 10)
+			}
+			kv("coupled cluster", "CCSD correlation %s%s hartree; %d iterations; %d active occupied, %d virtual, %d frozen; T1 diagnostic %.4f",
+				fixed(c.CCSDCorrelationHartree, 10), t, len(c.Iterations), c.ActiveOccupied, c.Virtual, c.FrozenOrbitals, c.T1Diagnostic)
 		}
 		kv("nuclear repulsion", "%s hartree", fixed(res.NuclearRepulsionHartree, 10))
 		kv("dipole", "%s", vec(res.DipoleDebye, "D"))
@@ -204,6 +215,18 @@ func writeRecord(w io.Writer, r *archive.Record, notes []archive.Note, look arch
 		}
 		if len(r.Tags) > 0 {
 			kv("tags", "%s", strings.Join(r.TagList(), "  "))
+		}
+	}
+	if d := r.Derivation; d != nil {
+		sec("derivation: " + d.Recipe)
+		for _, f := range d.Formulas {
+			kv(f.Quantity, "%s: %s  [%s]", f.Name, f.Expression, f.Source)
+		}
+		for _, in := range d.Inputs {
+			kv(in.Role, "%s  %s/%s", in.ID, in.Method, in.Basis)
+		}
+		for _, v := range d.Values {
+			kv(v.Name, "%s %s", fixed(v.Value, 10), archive.KindUnit[v.Kind])
 		}
 	}
 	if len(notes) > 0 {
