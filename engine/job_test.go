@@ -72,7 +72,7 @@ func TestNewJobErrors(t *testing.T) {
 		r    Request
 		want string
 	}{
-		{Request{Molecule: waterMolecule(), Method: "ccsd", Basis: "sto-3g"}, `method "ccsd"`},
+		{Request{Molecule: waterMolecule(), Method: "cisd", Basis: "sto-3g"}, `method "cisd"`},
 		{Request{Molecule: waterMolecule(), Method: "hf", Basis: "nope"}, `basis "nope"`},
 		{Request{Molecule: waterMolecule(), Method: "hf", Basis: "cc-pvdz-jkfit"}, "fitting set"},
 		{Request{Molecule: waterMolecule(), Method: "hf", Basis: "sto-3g", Task: "dance"}, `task "dance"`},
