@@ -820,6 +820,8 @@ func originName(kind string) string {
 		return "coordinate origin"
 	case "point":
 		return "given point"
+	case "atom":
+		return "nucleus of the given atom"
 	}
 	return kind
 }

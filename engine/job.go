@@ -83,9 +83,15 @@ type GridSpec struct {
 
 // OriginSpec says where multipoles are taken about.
 type OriginSpec struct {
-	// Kind: "centre-of-mass" (default), "centre-of-charge", "coordinate-origin" or "point".
+	// Kind: "centre-of-mass" (default), "centre-of-charge",
+	// "coordinate-origin", "point" (Point) or "atom" (the nucleus of atom
+	// Atom, wherever an optimisation moves it).
 	Kind  string     `json:"kind"`
 	Point [3]float64 `json:"point_bohr"`
+	// Atom is the 0-based atom index of kind "atom".
+	Atom int `json:"atom_index,omitempty"`
+	// symbol, when set, is the element the user named the atom by (checked by NewJob).
+	symbol string
 }
 
 // CorrelationSettings are the options of correlated methods (MP2 family,

@@ -1,6 +1,7 @@
 package engine
 
 import (
+	"errors"
 	"fmt"
 	"math"
 	"sort"
@@ -87,7 +88,14 @@ type Request struct {
 	// coupled-cluster methods (DefaultFieldStepAU, DefaultFieldFormula).
 	FieldStepAU  float64
 	FieldFormula string
+	// AllowCloseAtoms lets a molecule with atoms closer than the physical
+	// minimum (molecule.CloseFraction) through; the result then carries a note.
+	AllowCloseAtoms bool
 }
+
+// ErrCloseAtoms marks the refusal of a molecule whose atoms are closer than
+// the physical minimum.
+var ErrCloseAtoms = errors.New("close atoms are refused unless explicitly allowed")
 
 // Coupled-cluster defaults: energies converged well past their printed
 // eighth decimal.
@@ -107,6 +115,11 @@ func NewJob(r Request) (*Job, error) {
 	m := r.Molecule.Clone()
 	if err := m.Check(); err != nil {
 		return nil, err
+	}
+	if !r.AllowCloseAtoms {
+		if err := m.CheckContacts(); err != nil {
+			return nil, fmt.Errorf("%v; %w", err, ErrCloseAtoms)
+		}
 	}
 	method := lower(r.Method)
 	if method == "" {
@@ -315,10 +328,8 @@ func (j *Job) Validate() error {
 			return err
 		}
 	}
-	switch j.Origin.Kind {
-	case "centre-of-mass", "centre-of-charge", "coordinate-origin", "point":
-	default:
-		return fmt.Errorf("multipole_origin.kind %q is not known (centre-of-mass, centre-of-charge, coordinate-origin, point)", j.Origin.Kind)
+	if err := j.Origin.check(m); err != nil {
+		return err
 	}
 	if j.Basis.Angular != basis.Spherical && j.Basis.Angular != basis.Cartesian {
 		return fmt.Errorf("basis.angular %q is not spherical or cartesian", j.Basis.Angular)
@@ -335,6 +346,8 @@ func (j *Job) OriginBohr(m *molecule.Molecule) [3]float64 {
 		return [3]float64{}
 	case "point":
 		return j.Origin.Point
+	case "atom":
+		return m.Atoms[j.Origin.Atom].PosBohr
 	default:
 		return m.CentreOfMass()
 	}

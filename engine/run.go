@@ -63,14 +63,21 @@ func Run(job *Job, o RunOptions) (*Result, error) {
 	if _, err := basis.Build(set, mol, job.Basis.Angular); err != nil {
 		return nil, err
 	}
+	var res *Result
 	if job.Task == "optimize" {
-		return runOptimize(job, mol, set, o)
+		res, err = runOptimize(job, mol, set, o)
+	} else {
+		res, err = single(job, mol, set, o, true)
+		if err == nil {
+			finishGeometry(res, mol)
+		}
 	}
-	res, err := single(job, mol, set, o, true)
 	if err != nil {
 		return nil, err
 	}
-	finishGeometry(res, mol)
+	if n := mol.CloseContactNote(); n != "" {
+		res.Notes = append(res.Notes, n)
+	}
 	return res, nil
 }
 

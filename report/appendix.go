@@ -184,6 +184,9 @@ func settingsText(j engine.Job) rich {
 	if o.Kind == "point" {
 		ok += fmt.Sprintf(" (%s, %s, %s) a_{0}", sci(o.Point[0]), sci(o.Point[1]), sci(o.Point[2]))
 	}
+	if o.Kind == "atom" {
+		ok += fmt.Sprintf(" %d", o.Atom+1)
+	}
 	parts = append(parts, "multipole origin "+ok)
 	if p := j.Opt; p != nil && j.Task == "optimize" {
 		parts = append(parts, fmt.Sprintf("optimisation: %s, %s gradients, max force %s, RMS force %s E_{h}/a_{0}, max step %s a_{0}, |Δ*E*| < %s E_{h}, ≤ %d steps",

@@ -328,6 +328,8 @@ func (b *builder) details() {
 			k = "the origin of the input coordinates"
 		case "point":
 			k = fmt.Sprintf("the point (%s, %s, %s) a_{0}", sci(o.Point[0]), sci(o.Point[1]), sci(o.Point[2]))
+		case "atom":
+			k = fmt.Sprintf("the nucleus of atom %d", o.Atom+1)
 		}
 		return k, true
 	})

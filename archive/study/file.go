@@ -58,14 +58,17 @@ type File struct {
 	MemoryLimit string `json:"memory_limit,omitempty"`
 }
 
-// MoleculeEntry is one molecule: an XYZ file (path relative to the study
-// file) or inline XYZ text.
+// MoleculeEntry is one molecule: a molecule file (XYZ, extended XYZ, MDL
+// molfile or SDF; path relative to the study file) or inline XYZ text.
 type MoleculeEntry struct {
 	File         string `json:"file,omitempty"`
 	XYZ          string `json:"xyz,omitempty"`
 	Name         string `json:"name,omitempty"`
 	Charge       *int   `json:"charge,omitempty"`
 	Multiplicity *int   `json:"multiplicity,omitempty"`
+	// AllowCloseAtoms computes a molecule whose atoms are closer than the
+	// physical minimum (see molecule.CloseFraction).
+	AllowCloseAtoms bool `json:"allow_close_atoms,omitempty"`
 }
 
 // LevelEntry is one level of theory (method and basis) or, with Methods
@@ -86,7 +89,8 @@ type LevelEntry struct {
 	Grid string `json:"grid,omitempty"`
 	// RelaxedProperties is the MP2-family relaxed-density route.
 	RelaxedProperties string `json:"relaxed_properties,omitempty"`
-	// MultipoleOrigin: centre-of-mass (default), centre-of-charge or coordinate-origin.
+	// MultipoleOrigin: centre-of-mass (default), centre-of-charge,
+	// coordinate-origin, point:X,Y,Z (ångström) or atom:N (see engine.ParseOrigin).
 	MultipoleOrigin string    `json:"multipole_origin,omitempty"`
 	SCF             *SCFEntry `json:"scf,omitempty"`
 	Optimization    *OptEntry `json:"optimization,omitempty"`
@@ -159,6 +163,9 @@ type Study struct {
 type Molecule struct {
 	Name string
 	Mol  *molecule.Molecule
+	// Notes are the molecule reader's remarks (ignored columns and the like).
+	Notes      []string
+	allowClose bool
 }
 
 // Level is one expanded level of theory.
@@ -193,7 +200,7 @@ func Load(path string) (*Study, error) {
 		if !filepath.IsAbs(name) {
 			name = filepath.Join(dir, name)
 		}
-		return os.ReadFile(name)
+		return molecule.ReadFileBytes(name)
 	}
 	s, err := Parse(b, path, read)
 	if err != nil {
@@ -311,8 +318,8 @@ func (s *Study) build(read Reader) error {
 func fold(s string) string { return strings.ToLower(strings.TrimSpace(s)) }
 
 func (e MoleculeEntry) load(read Reader) (*Molecule, error) {
-	var raw []byte
-	src := "inline xyz"
+	var in *molecule.Input
+	var err error
 	switch {
 	case e.File != "" && e.XYZ != "":
 		return nil, fmt.Errorf("give either \"file\" or \"xyz\", not both")
@@ -324,16 +331,19 @@ func (e MoleculeEntry) load(read Reader) (*Molecule, error) {
 		if err != nil {
 			return nil, fmt.Errorf("file %q: %v", e.File, err)
 		}
-		raw, src = b, e.File
+		in, err = molecule.Read(bytes.NewReader(b), e.File)
+		if err != nil {
+			return nil, err
+		}
 	case e.XYZ != "":
-		raw = []byte(e.XYZ)
+		in = &molecule.Input{}
+		if in.Mol, err = molecule.ParseXYZ(strings.NewReader(e.XYZ), "inline xyz"); err != nil {
+			return nil, err
+		}
 	default:
-		return nil, fmt.Errorf("give \"file\" (an XYZ path relative to the study) or \"xyz\" (the XYZ text)")
+		return nil, fmt.Errorf("give \"file\" (a molecule file relative to the study) or \"xyz\" (the XYZ text)")
 	}
-	m, err := molecule.ParseXYZ(bytes.NewReader(raw), src)
-	if err != nil {
-		return nil, err
-	}
+	m := in.Mol
 	if e.Name != "" {
 		m.Name = strings.TrimSpace(e.Name)
 	}
@@ -352,7 +362,7 @@ func (e MoleculeEntry) load(read Reader) (*Molecule, error) {
 	if err := m.Check(); err != nil {
 		return nil, fmt.Errorf("molecule %q: %v", m.Name, err)
 	}
-	return &Molecule{Name: m.Name, Mol: m}, nil
+	return &Molecule{Name: m.Name, Mol: m, Notes: in.Notes, allowClose: e.AllowCloseAtoms}, nil
 }
 
 func (e LevelEntry) expand() ([]*Level, error) {
@@ -426,7 +436,11 @@ func (e LevelEntry) level(method, basisName string, single bool) (*Level, error)
 		return nil, fmt.Errorf("angular %q is not spherical or cartesian", e.Angular)
 	}
 	if e.MultipoleOrigin != "" {
-		r.Origin = &engine.OriginSpec{Kind: e.MultipoleOrigin}
+		o, err := engine.ParseOrigin(e.MultipoleOrigin)
+		if err != nil {
+			return nil, err
+		}
+		r.Origin = o
 	}
 	if e.SCF != nil {
 		sc := engine.DefaultSCF

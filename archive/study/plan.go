@@ -49,6 +49,7 @@ func (it *Item) Job(geom *molecule.Molecule) (*engine.Job, error) {
 	}
 	r.Molecule = geom
 	r.Task = it.Task
+	r.AllowCloseAtoms = it.Molecule.allowClose
 	j, err := engine.NewJob(r)
 	if err == nil && it.Task == "optimize" && it.Level.opt != nil {
 		// The study's criteria change the engine's defaults for this method.

@@ -1,12 +1,12 @@
 package main
 
 import (
+	"errors"
 	"flag"
 	"fmt"
 	"io"
 	"maps"
 	"math"
-	"os"
 	"strings"
 
 	"moltrail/archive"
@@ -50,7 +50,7 @@ func memoryLimit(s string) (int64, error) {
 }
 
 func cmdRun(args []string, stdout, stderr io.Writer) int {
-	fs := newFlags("run", stderr, "[flags] FILE.xyz  |  [flags] --geometry-from ID")
+	fs := newFlags("run", stderr, "[flags] FILE  |  [flags] --geometry-from ID")
 	af := addArchiveFlags(fs)
 	method := fs.String("method", "hf", "the `METHOD`: "+joinNames(engine.MethodNames())+" (ccsd and ccsd(t) need a closed-shell RHF reference: open shells are refused)")
 	basisName := fs.String("basis", "cc-pvdz", "basis set `NAME` or alias (moltrail basis lists them), or a basis JSON file")
@@ -76,7 +76,8 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 	schwarz := fs.Float64("schwarz", engine.DefaultSCF.SchwarzThreshold, "skip ERI shell quartets with Schwarz bound below this")
 	shift := fs.Float64("level-shift", engine.DefaultSCF.LevelShiftHartree, "SCF: virtual-orbital level shift (hartree)")
 	grid := fs.String("grid", "", "DFT grid `LEVEL`: "+joinNames(dft.LevelNames())+" (default: "+dft.DefaultLevel+")")
-	origin := fs.String("origin", "centre-of-mass", "multipole `ORIGIN`: centre-of-mass, centre-of-charge or coordinate-origin")
+	origin := fs.String("origin", "centre-of-mass", "multipole `ORIGIN`: "+engine.OriginForms)
+	closeOK := fs.Bool("force-close-atoms", false, fmt.Sprintf("compute even when atoms are closer than %.1f × the sum of their covalent radii (at least %.1f Å)", molecule.CloseFraction, molecule.CloseFloorAngstrom))
 	geomFrom := fs.String("geometry-from", "", "start from the final geometry of the archived record `ID` (unique prefix) instead of an XYZ file; recorded in the lineage")
 	maxForce := fs.Float64("max-force", engine.DefaultOpt.MaxForce, "optimisation: largest force limit (hartree/bohr); with the RMS force, step and energy-change limits")
 	maxSteps := fs.Int("max-steps", engine.DefaultOpt.MaxSteps, "optimisation: step limit")
@@ -92,7 +93,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 		return code
 	}
 	if *geomFrom == "" && len(pos) != 1 {
-		fmt.Fprintln(stderr, "moltrail run: give exactly one molecule file (XYZ), or --geometry-from ID")
+		fmt.Fprintln(stderr, "moltrail run: give exactly one molecule file (XYZ, extended XYZ, MDL molfile or SDF), or --geometry-from ID")
 		return exitUsage
 	}
 	if *geomFrom != "" && len(pos) != 0 {
@@ -119,6 +120,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 	var m *molecule.Molecule
 	var lineage []archive.Link
 	source := ""
+	fileCharge, fileMult := false, false
 	if *geomFrom != "" {
 		var id string
 		m, id, code, err = geometryFromRecord(af, *geomFrom, stderr)
@@ -128,26 +130,34 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 		lineage = []archive.Link{{Relation: archive.GeometryFrom, ID: id}}
 		source = "geometry of record " + id[:12]
 	} else {
-		m, err = readXYZ(pos[0])
+		in, err := molecule.ReadFile(pos[0])
 		if err != nil {
 			return fail(stderr, exitUsage, "run", err)
 		}
-		source = pos[0]
+		for _, n := range in.Notes {
+			fmt.Fprintf(stderr, "moltrail run: %s: %s\n", pos[0], n)
+		}
+		m, source = in.Mol, pos[0]
+		fileCharge, fileMult = in.ChargeGiven, in.MultiplicityGiven
 	}
 	if *name != "" {
 		m.Name = *name
 	}
-	if *geomFrom == "" || set["charge"] {
+	if (*geomFrom == "" && !fileCharge) || set["charge"] {
 		m.Charge = *charge
 	}
-	if *geomFrom == "" || set["multiplicity"] {
+	if (*geomFrom == "" && !fileMult) || set["multiplicity"] {
 		m.Multiplicity = *mult
+	}
+	orig, err := engine.ParseOrigin(*origin)
+	if err != nil {
+		return fail(stderr, exitUsage, "run", fmt.Errorf("--origin: %v", err))
 	}
 	scf := engine.DefaultSCF
 	scf.EnergyTolHartree, scf.DensityTol, scf.GradientTol = *eTol, *dTol, *gTol
 	scf.MaxIter, scf.Guess, scf.DIISSize, scf.SchwarzThreshold, scf.LevelShiftHartree = *maxIter, *guess, *diis, *schwarz, *shift
 	req := engine.Request{Molecule: m, Method: *method, Basis: *basisName, Task: *task, FrozenCore: *frozen,
-		SCF: &scf, Grid: *grid, Origin: &engine.OriginSpec{Kind: *origin}, RelaxedProps: *relaxed}
+		SCF: &scf, Grid: *grid, Origin: orig, RelaxedProps: *relaxed, AllowCloseAtoms: *closeOK}
 	if set["field-step"] || set["field-formula"] {
 		req.FieldStepAU, req.FieldFormula = *fieldStep, *fieldFormula
 	}
@@ -177,6 +187,9 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 		req.Angular = basis.Spherical
 	}
 	job, err := engine.NewJob(req)
+	if errors.Is(err, engine.ErrCloseAtoms) {
+		err = fmt.Errorf("%v (--force-close-atoms computes anyway)", err)
+	}
 	if err != nil {
 		return fail(stderr, exitUsage, "run", fmt.Errorf("%s: %v", source, err))
 	}
@@ -208,6 +221,9 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 	} else {
 		writeRunSummary(stdout, rec, sourceLookup(af, rec))
 	}
+	if q := rec.Input.Molecule.Charge; q != 0 && rec.Results.DipoleDebye != nil {
+		fmt.Fprintf(stderr, "moltrail run: warning: the molecule has charge %s, so its dipole depends on the origin (here %s); compare dipoles of ions only about the same origin\n", signed(q), rec.Input.OriginLabel())
+	}
 	if rec.Status != engine.StatusConverged {
 		msg := rec.Results.Error
 		if msg == "" {
@@ -228,20 +244,6 @@ func joinNames(n []string) string {
 		s += x
 	}
 	return s
-}
-
-// readXYZ reads a molecule file; the error names the file (and, from the
-// parser, the line).
-func readXYZ(path string) (*molecule.Molecule, error) {
-	f, err := os.Open(path)
-	if err != nil {
-		return nil, fmt.Errorf("molecule file %s: %v", path, pathErr(err))
-	}
-	defer f.Close()
-	if fi, err := f.Stat(); err == nil && fi.IsDir() {
-		return nil, fmt.Errorf("molecule file %s is a directory", path)
-	}
-	return molecule.ParseXYZ(f, path)
 }
 
 // geometryFromRecord reads the final geometry of an archived record as a

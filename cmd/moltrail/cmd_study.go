@@ -98,6 +98,11 @@ func cmdStudy(args []string, stdout, stderr io.Writer) int {
 	if err != nil {
 		return fail(stderr, exitUsage, "study", err)
 	}
+	for _, m := range st.Molecules() {
+		for _, n := range m.Notes {
+			fmt.Fprintf(stderr, "moltrail study: molecule %s: %s\n", m.Name, n)
+		}
+	}
 	if memBytes == 0 {
 		memBytes = st.MemoryLimitBytes
 	}

@@ -90,6 +90,12 @@ func TestBadInputContract(t *testing.T) {
 		{"xyz NaN", []string{"run", "--archive", fresh, xyz("nan.xyz", "2\nw\nH 0 NaN 0\nH 0 0 1\n")}, "nan.xyz:3: coordinate y is NaN"},
 		{"xyz duplicate atoms", []string{"run", "--archive", fresh, xyz("dup.xyz", "2\nw\nH 0 0 0.5\nH 0 0 0.5\n")}, "dup.xyz:4: atom 2 (H) sits on the position of atom 1"},
 		{"xyz empty", []string{"run", "--archive", fresh, xyz("empty.xyz", "")}, "empty.xyz:1:"},
+		{"z-matrix", []string{"run", "--archive", fresh, xyz("w.zmat", "O\nH 1 0.96\nH 1 0.96 2 104.5\n")}, "w.zmat looks like a Z-matrix (internal coordinates), which moltrail does not read: moltrail reads XYZ and extended XYZ"},
+		{"not a molecule file", []string{"run", "--archive", fresh, xyz("w.txt", "water, please\n")}, "w.txt is not a molecule file moltrail can read: moltrail reads XYZ"},
+		{"atoms too close", []string{"run", "--archive", fresh, xyz("close.xyz", "2\nw\nH 0 0 0\nH 0 0 0.01\n")}, "atoms H1 and H2 are 0.010 Å apart, closer than the physical minimum of 0.310 Å"},
+		{"too many atoms", []string{"run", "--archive", fresh, xyz("big.xyz", "20000\nw\nH 0 0 0\n")}, "big.xyz:1: the file promises 20000 atoms; moltrail accepts molecules of at most 1000 atoms"},
+		{"origin point without coordinates", []string{"run", "--archive", fresh, "--origin", "point", f.xyz}, "a point needs its coordinates, point:X,Y,Z in ångström"},
+		{"origin atom not there", []string{"run", "--archive", fresh, "--origin", "atom:3", f.xyz}, "multipole origin: atom 3 does not exist (the molecule has 2 atoms)"},
 		{"xyz missing", []string{"run", "--archive", fresh, filepath.Join(d, "absent.xyz")}, "absent.xyz: no such file"},
 		{"xyz is a directory", []string{"run", "--archive", fresh, d}, "is a directory"},
 		// Levels and electrons.

@@ -112,7 +112,7 @@ func writeRecord(w io.Writer, r *archive.Record, notes []archive.Note, look arch
 			kv("coupled cluster", "|ΔE| < %g hartree, rms Δt < %g, ≤ %d iterations, DIIS %d, %s integrals", k.EnergyTolHartree, k.AmplitudeTol, k.MaxIter, k.DIISSize, k.Integrals)
 		}
 	}
-	kv("multipole origin", "%s", in.Origin.Kind)
+	kv("multipole origin", "%s", in.OriginLabel())
 	if o := in.Opt; o != nil {
 		kv("optimisation", "max force %g, rms force %g hartree/bohr, ≤ %d steps, %s coordinates, %s gradient", o.MaxForce, o.RMSForce, o.MaxSteps, o.Coordinates, o.GradientMethod)
 	}

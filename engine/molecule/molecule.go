@@ -77,6 +77,9 @@ func (m *Molecule) Check() error {
 	if len(m.Atoms) == 0 {
 		return fmt.Errorf("molecule %q has no atoms", m.Name)
 	}
+	if len(m.Atoms) > MaxAtoms {
+		return fmt.Errorf("molecule %q has %d atoms; moltrail accepts molecules of at most %d atoms", m.Name, len(m.Atoms), MaxAtoms)
+	}
 	ne := m.Electrons()
 	if ne < 1 {
 		return fmt.Errorf("charge %+d leaves %d electrons on %s (nuclear charge %d): at least one electron is needed", m.Charge, ne, m.Formula(), m.NuclearCharge())

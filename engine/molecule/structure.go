@@ -1,8 +1,10 @@
 package molecule
 
 import (
+	"errors"
 	"fmt"
 	"math"
+	"strings"
 )
 
 // covalentRadiiAngstrom are single-bond covalent radii in Å for H–Kr from
@@ -140,4 +142,82 @@ func sub(a, b [3]float64) [3]float64 { return [3]float64{a[0] - b[0], a[1] - b[1
 func dot(a, b [3]float64) float64    { return a[0]*b[0] + a[1]*b[1] + a[2]*b[2] }
 func cross(a, b [3]float64) [3]float64 {
 	return [3]float64{a[1]*b[2] - a[2]*b[1], a[2]*b[0] - a[0]*b[2], a[0]*b[1] - a[1]*b[0]}
+}
+
+// Closest approach allowed between two nuclei: CloseFraction of the sum of
+// their covalent radii, and never less than CloseFloorAngstrom. No bound
+// molecule comes near it (the shortest bond, H₂'s 0.74 Å, is 1.2 times the
+// H–H radius sum); atoms closer than this are almost always a slip in the
+// input, and an SCF on them converges to meaningless energies.
+const (
+	CloseFraction      = 0.5
+	CloseFloorAngstrom = 0.3
+)
+
+// CloseLimitAngstrom is the smallest distance allowed between atoms i and j.
+func (m *Molecule) CloseLimitAngstrom(i, j int) float64 {
+	return math.Max(CloseFloorAngstrom, CloseFraction*(CovalentRadiusAngstrom(m.Atoms[i].Z)+CovalentRadiusAngstrom(m.Atoms[j].Z)))
+}
+
+// CloseContact is a pair of atoms closer than CloseLimitAngstrom.
+type CloseContact struct {
+	I, J            int
+	Angstrom, Limit float64
+}
+
+func (c CloseContact) describe(m *Molecule) string {
+	return fmt.Sprintf("atoms %s and %s are %.3f Å apart, closer than the physical minimum of %.3f Å (%.1f × the sum of their covalent radii, at least %.1f Å)",
+		m.Label(c.I), m.Label(c.J), c.Angstrom, c.Limit, CloseFraction, CloseFloorAngstrom)
+}
+
+// CloseContacts lists the atom pairs closer than the physical minimum.
+func (m *Molecule) CloseContacts() []CloseContact {
+	var out []CloseContact
+	for i := range m.Atoms {
+		for j := i + 1; j < len(m.Atoms); j++ {
+			d := m.Distance(i, j) * BohrAngstrom
+			if lim := m.CloseLimitAngstrom(i, j); d < lim {
+				out = append(out, CloseContact{I: i, J: j, Angstrom: d, Limit: lim})
+			}
+		}
+	}
+	return out
+}
+
+// CheckContacts refuses a molecule with atoms closer than the physical
+// minimum, naming the closest such pair.
+func (m *Molecule) CheckContacts() error {
+	cc := m.CloseContacts()
+	if len(cc) == 0 {
+		return nil
+	}
+	w := cc[0]
+	for _, c := range cc[1:] {
+		if c.Angstrom/c.Limit < w.Angstrom/w.Limit {
+			w = c
+		}
+	}
+	s := w.describe(m)
+	if len(cc) > 1 {
+		s += fmt.Sprintf(" (and %d more pairs)", len(cc)-1)
+	}
+	return errors.New(s)
+}
+
+// CloseContactNote is the remark kept with a calculation that was allowed
+// to run on atoms closer than the physical minimum ("" when none are).
+func (m *Molecule) CloseContactNote() string {
+	cc := m.CloseContacts()
+	if len(cc) == 0 {
+		return ""
+	}
+	var parts []string
+	for i, c := range cc {
+		if i == 3 {
+			parts = append(parts, fmt.Sprintf("%d more pairs", len(cc)-3))
+			break
+		}
+		parts = append(parts, c.describe(m))
+	}
+	return strings.Join(parts, "; ") + ": computed only because close atoms were explicitly allowed"
 }
