@@ -137,6 +137,15 @@ type OptSettings struct {
 	FiniteDiffStepAU float64 `json:"finite_difference_step_bohr,omitempty"`
 }
 
+// FreqSettings are the controls of a harmonic vibrational analysis.
+type FreqSettings struct {
+	// Derivatives: "gradient-differences" (central differences of analytic
+	// gradients) or "energy-differences" (second differences of energies,
+	// for methods without analytic gradients).
+	Derivatives string  `json:"derivatives"`
+	StepBohr    float64 `json:"step_bohr"`
+}
+
 // Job is everything that can change a number.
 type Job struct {
 	Version   string       `json:"canonical_version"`
@@ -153,6 +162,9 @@ type Job struct {
 	Correlation *CorrelationSettings `json:"correlation,omitempty"`
 	Origin      OriginSpec           `json:"multipole_origin"`
 	Opt         *OptSettings         `json:"optimization,omitempty"`
+	// Freq asks for harmonic frequencies: task "frequencies" at the input
+	// geometry, task "optimize" at the optimised one.
+	Freq *FreqSettings `json:"frequencies,omitempty"`
 }
 
 // Canonical returns the canonical bytes of a normalised job.

@@ -183,6 +183,35 @@ type Structure struct {
 	Dihedrals []Dihedral `json:"dihedrals"`
 }
 
+// Vibrations are the harmonic vibrational analysis of the final geometry.
+type Vibrations struct {
+	// Method says how the Hessian was made.
+	Method       string  `json:"method"`
+	StepBohr     float64 `json:"step_bohr"`
+	Calculations int     `json:"displaced_calculations"`
+	// WavenumbersPerCm are ascending; an imaginary wavenumber iν is given as −ν.
+	WavenumbersPerCm    []float64 `json:"harmonic_wavenumbers_per_cm"`
+	ReducedMassesDalton []float64 `json:"reduced_masses_dalton"`
+	// NormalModes are the Cartesian displacements (3N each, unit length).
+	NormalModes [][]float64 `json:"normal_modes_cartesian"`
+	// ImaginaryModes counts imaginary wavenumbers beyond the tolerance
+	// (vib.ImaginaryToleranceCm); SmallImaginaryModes those within it.
+	ImaginaryModes      int `json:"imaginary_modes"`
+	SmallImaginaryModes int `json:"small_imaginary_modes,omitempty"`
+	// ZeroPointHartree is ½ Σ ħω over the real modes.
+	ZeroPointHartree float64 `json:"zero_point_energy_hartree"`
+	// MaxForce is the largest gradient component free of rigid motion.
+	MaxForce float64 `json:"max_force_hartree_per_bohr"`
+	// StationaryPoint is "minimum", "saddle-point" or "not-stationary".
+	StationaryPoint string `json:"stationary_point"`
+	Linear          bool   `json:"linear,omitempty"`
+	// HessianLower is the Cartesian Hessian's lower triangle, row by row.
+	HessianLower []float64 `json:"cartesian_hessian_lower_hartree_per_bohr2"`
+}
+
+// IsMinimum reports whether the analysis shows a minimum.
+func (v *Vibrations) IsMinimum() bool { return v != nil && v.StationaryPoint == "minimum" }
+
 // Result is what Run returns. The first keys are the outside contract.
 type Result struct {
 	EnergyHartree            float64     `json:"energy_hartree"`
@@ -214,6 +243,7 @@ type Result struct {
 	LevelProperties *Properties     `json:"level_properties,omitempty"`
 	Trajectory      []OptStep       `json:"optimization_trajectory,omitempty"`
 	Structure       *Structure      `json:"structure,omitempty"`
+	Vibrations      *Vibrations     `json:"vibrations,omitempty"`
 	// Notes are plain-words remarks the engine wants a reader to see.
 	Notes []string `json:"notes,omitempty"`
 }

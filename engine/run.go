@@ -15,6 +15,7 @@ import (
 	"moltrail/engine/opt"
 	"moltrail/engine/props"
 	"moltrail/engine/scf"
+	"moltrail/engine/vib"
 )
 
 // RunOptions control how (not what) a job is computed; they never change a
@@ -74,6 +75,11 @@ func Run(job *Job, o RunOptions) (*Result, error) {
 	}
 	if err != nil {
 		return nil, err
+	}
+	if job.Task == "frequencies" && res.Status == StatusConverged {
+		if err := addVibrations(res, job, mol, set, o); err != nil {
+			return nil, err
+		}
 	}
 	if n := mol.CloseContactNote(); n != "" {
 		res.Notes = append(res.Notes, n)
@@ -309,22 +315,10 @@ func geomAngstrom(mol *molecule.Molecule) []GeomAtom {
 // properties at the final geometry.
 func runOptimize(job *Job, mol *molecule.Molecule, set *basis.Set, o RunOptions) (*Result, error) {
 	os := *job.Opt
-	energyAt := func(x []float64) (float64, error) {
-		m := opt.WithCoordinates(mol, x)
-		// the finite-difference energies run o.threads() at a time
-		r, err := single(job, m, set, RunOptions{Threads: 1, MemoryLimitBytes: o.memory().limit / int64(o.threads())}, false)
-		if err != nil {
-			return 0, err
-		}
-		if r.Status != StatusConverged {
-			return 0, errNotConverged{r.Error}
-		}
-		return r.EnergyHartree, nil
-	}
 	var eg opt.EnergyGradient
 	switch os.GradientMethod {
 	case "finite-difference":
-		eg = opt.InternalFiniteDifferenceGradient(energyAt, os.FiniteDiffStepAU, o.threads())
+		eg = opt.InternalFiniteDifferenceGradient(energyAt(job, mol, set, o), os.FiniteDiffStepAU, o.threads())
 	default:
 		eg = func(x []float64) (float64, []float64, error) {
 			m := opt.WithCoordinates(mol, x)
@@ -356,7 +350,91 @@ func runOptimize(job *Job, mol *molecule.Molecule, set *basis.Set, o RunOptions)
 		res.Status = StatusNotConverged
 		res.Error = "geometry optimisation " + or.Reason
 	}
+	if job.Freq != nil && res.Status == StatusConverged {
+		if err := addVibrations(res, job, final, set, o); err != nil {
+			return nil, err
+		}
+	}
 	return res, nil
+}
+
+// energyAt returns the energy of the job's level at coordinates x (bohr)
+// of mol's atoms, with the options of a displaced calculation, no properties.
+func energyAt(job *Job, mol *molecule.Molecule, set *basis.Set, o RunOptions) func(x []float64) (float64, error) {
+	return func(x []float64) (float64, error) {
+		r, err := single(job, opt.WithCoordinates(mol, x), set, o.displaced(), false)
+		if err != nil {
+			return 0, err
+		}
+		if r.Status != StatusConverged {
+			return 0, errNotConverged{r.Error}
+		}
+		return r.EnergyHartree, nil
+	}
+}
+
+// addVibrations computes the harmonic analysis at mol's geometry and adds
+// it to res, with a note when the geometry is not a minimum. A displaced
+// calculation that does not converge makes res not converged.
+func addVibrations(res *Result, job *Job, mol *molecule.Molecule, set *basis.Set, o RunOptions) error {
+	f := job.Freq
+	x := opt.Coordinates(mol)
+	vo := vib.Options{StepBohr: f.StepBohr, Workers: o.threads(), Progress: o.Progress}
+	var H *vib.Hessian
+	var err error
+	var how string
+	switch f.Derivatives {
+	case "energy-differences":
+		how = fmt.Sprintf("second differences of energies, step %g bohr along the internal directions", f.StepBohr)
+		o.logf("  frequencies: Hessian from energies (%d internal directions)\n", len(opt.InternalDirections(x)))
+		H, err = vib.FromEnergies(x, energyAt(job, mol, set, o), vo)
+	default:
+		how = fmt.Sprintf("central differences of analytic gradients, step %g bohr along the internal directions", f.StepBohr)
+		o.logf("  frequencies: Hessian from gradients (%d internal directions)\n", len(opt.InternalDirections(x)))
+		H, err = vib.FromGradients(x, func(y []float64) (float64, []float64, error) {
+			return gradient(job, opt.WithCoordinates(mol, y), set, o.displaced())
+		}, vo)
+	}
+	var nc errNotConverged
+	if errors.As(err, &nc) {
+		res.Status = StatusNotConverged
+		res.Error = "an SCF of the frequency calculation's displaced geometries did not converge: " + nc.msg
+		return nil
+	}
+	if err != nil {
+		return err
+	}
+	a, err := vib.Analyse(mol, H.H, H.Gradient)
+	if err != nil {
+		return err
+	}
+	v := &Vibrations{Method: how, StepBohr: f.StepBohr, Calculations: H.Calculations,
+		WavenumbersPerCm: a.WavenumbersPerCm, ReducedMassesDalton: a.ReducedMassesDalton, NormalModes: a.Modes,
+		ImaginaryModes: a.Imaginary, SmallImaginaryModes: a.SmallImaginary, ZeroPointHartree: a.ZeroPointHartree,
+		MaxForce: a.MaxForce, StationaryPoint: a.Character, Linear: a.Linear}
+	n, _ := H.H.Dims()
+	for i := 0; i < n; i++ {
+		for j := 0; j <= i; j++ {
+			v.HessianLower = append(v.HessianLower, H.H.At(i, j))
+		}
+	}
+	res.Vibrations = v
+	switch a.Character {
+	case vib.SaddlePoint:
+		res.Notes = append(res.Notes, fmt.Sprintf("the structure is not a minimum: %d imaginary mode(s), the largest %.1fi cm⁻¹; a minimum lies along that mode", a.Imaginary, -a.WavenumbersPerCm[0]))
+	case vib.NotStationary:
+		res.Notes = append(res.Notes, fmt.Sprintf("the geometry is not a stationary point (largest force %.1e hartree/bohr, above %.1e): harmonic frequencies here describe no minimum; optimise first", a.MaxForce, vib.StationaryMaxForce))
+	}
+	if a.SmallImaginary > 0 {
+		res.Notes = append(res.Notes, fmt.Sprintf("%d small imaginary wavenumber(s) (below %.0f cm⁻¹ in magnitude) are taken as numerical noise of the finite differences", a.SmallImaginary, vib.ImaginaryToleranceCm))
+	}
+	return nil
+}
+
+// displaced are the options of one of the o.threads() displaced
+// calculations that run at once: one thread and its share of the memory.
+func (o RunOptions) displaced() RunOptions {
+	return RunOptions{Threads: 1, MemoryLimitBytes: o.memory().limit / int64(o.threads())}
 }
 
 type errNotConverged struct{ msg string }

@@ -115,7 +115,7 @@ func (b *builder) structures() {
 			}
 		}
 		capt := cat(boldTxt(fmt.Sprintf("Structure A%d.", i+1)), txt(" "+s.name+" ("), hillFormula(s.atoms),
-			txt(fmt.Sprintf("), charge %d, multiplicity %d, %d atom%s; %s.", s.charge, s.mult, len(s.atoms), plural(len(s.atoms)), src)))
+			txt(fmt.Sprintf("), charge %d, multiplicity %d, %d atom%s; %s.", s.charge, s.mult, len(s.atoms), plural(len(s.atoms)), src)), b.minimumNote(s.records))
 		t := &table{Name: fmt.Sprintf("structure_A%d", i+1), Caption: capt}
 		t.Head = []rich{txt("Atom"), mk("*x* / Å"), mk("*y* / Å"), mk("*z* / Å")}
 		t.Align = []align{alignLeft, alignDecimal, alignDecimal, alignDecimal}

@@ -119,12 +119,15 @@ type OptEntry struct {
 	TrustRadiusBohr  *float64 `json:"trust_radius_bohr,omitempty"`
 	GradientMethod   string   `json:"gradient_method,omitempty"`
 	FiniteDiffStepAU *float64 `json:"finite_difference_step_bohr,omitempty"`
+	// Frequencies adds harmonic frequencies at the optimised geometry.
+	Frequencies bool `json:"frequencies,omitempty"`
 }
 
 // TaskEntry asks for one kind of calculation for molecules × levels.
 type TaskEntry struct {
-	// Task is "optimize" (minimise, then properties at the final geometry)
-	// or "energy" (energy and properties at one geometry).
+	// Task is "optimize" (minimise, then properties at the final geometry),
+	// "energy" (energy and properties at one geometry) or "frequencies"
+	// (energy, properties and harmonic frequencies at one geometry).
 	Task string `json:"task"`
 	// Levels and Molecules restrict the task (ids and names; empty = all).
 	Levels    []string `json:"levels,omitempty"`
@@ -530,9 +533,9 @@ func (s *Study) levelIDs() string {
 
 func (s *Study) checkTask(t TaskEntry) error {
 	switch t.Task {
-	case "optimize", "energy":
+	case "optimize", "energy", "frequencies":
 	default:
-		return fmt.Errorf("task %q is not known (optimize or energy)", t.Task)
+		return fmt.Errorf("task %q is not known (optimize, energy or frequencies)", t.Task)
 	}
 	for _, id := range t.Levels {
 		if s.level(id) == nil {

@@ -20,7 +20,7 @@ type Item struct {
 	Index    int
 	Molecule *Molecule
 	Level    *Level
-	// Task is "optimize" or "energy".
+	// Task is "optimize", "energy" or "frequencies".
 	Task string
 	// From is the optimisation whose final geometry this item uses (nil:
 	// the molecule's geometry as given).
@@ -50,6 +50,7 @@ func (it *Item) Job(geom *molecule.Molecule) (*engine.Job, error) {
 	r.Molecule = geom
 	r.Task = it.Task
 	r.AllowCloseAtoms = it.Molecule.allowClose
+	r.Frequencies = it.Task == "optimize" && it.Level.opt != nil && it.Level.opt.Frequencies
 	j, err := engine.NewJob(r)
 	if err == nil && it.Task == "optimize" && it.Level.opt != nil {
 		// The study's criteria change the engine's defaults for this method.

@@ -75,7 +75,7 @@ func TestParseErrors(t *testing.T) {
 		{"frozen core hf", base(`[{"method":"hf","basis":"sto-3g","frozen_core":true}]`, `[{"task":"energy"}]`), "frozen_core applies to correlated methods"},
 		{"grid on hf", base(`[{"method":"hf","basis":"sto-3g","grid":"fine"}]`, `[{"task":"energy"}]`), "grid applies to DFT"},
 		{"duplicate level", base(`[{"method":"hf","basis":"sto-3g"},{"methods":["HF"],"basis_sets":["STO-3G"]}]`, `[{"task":"energy"}]`), `levels[1]: level "hf/STO-3G" is defined by levels[0] too`},
-		{"unknown task", base(`[{"method":"hf","basis":"sto-3g"}]`, `[{"task":"frequencies"}]`), `tasks[0]: task "frequencies" is not known`},
+		{"unknown task", base(`[{"method":"hf","basis":"sto-3g"}]`, `[{"task":"scan"}]`), `tasks[0]: task "scan" is not known (optimize, energy or frequencies)`},
 		{"unknown level in task", base(`[{"method":"hf","basis":"sto-3g"}]`, `[{"task":"energy","levels":["mp2/sto-3g"]}]`), `tasks[0]: level "mp2/sto-3g" is not defined (levels: hf/sto-3g)`},
 		{"unknown molecule in task", base(`[{"method":"hf","basis":"sto-3g"}]`, `[{"task":"energy","molecules":["water"]}]`), `molecule "water" is not in the study (molecules: dihydrogen)`},
 		{"own geometry", base(`[{"method":"hf","basis":"sto-3g"}]`, `[{"task":"optimize","geometry_from":"hf/sto-3g"}]`), "cannot start from its own optimised geometry"},
@@ -595,5 +595,37 @@ func TestEngineIntegration(t *testing.T) {
 		if r.Record.Run.Threads != sum.ThreadsPerJob {
 			t.Errorf("%s: ran with %d threads, the summary says %d", r.Item, r.Record.Run.Threads, sum.ThreadsPerJob)
 		}
+	}
+}
+
+// Frequencies: as a task at another item's optimised geometry, and as an
+// option of a level's optimisations; an SD file as a molecule, its notes kept.
+func TestFrequencyItemsAndMoleculeFiles(t *testing.T) {
+	sdf := "dihydrogen\n\n\n  2  1  0  0  0  0  0  0  0  0999 V2000\n    0.0000    0.0000    0.0000 H   0  0\n    0.0000    0.0000    0.7410 H   0  0\n  1  2  1  0\nM  END\n$$$$\nsecond\n\n\n  1  0  0  0  0  0  0  0  0  0999 V2000\n    0.0000    0.0000    0.0000 He  0  0\nM  END\n$$$$\n"
+	src := `{"format":"moltrail-study/1","name":"f","molecules":[{"file":"h2.sdf"}],
+	  "levels":[{"id":"a","method":"hf","basis":"sto-3g"},{"id":"b","method":"hf","basis":"sto-3g","optimization":{"frequencies":true}}],
+	  "tasks":[{"task":"frequencies","levels":["a"],"geometry_from":"a"},{"task":"optimize","levels":["b"]}]}`
+	s, err := Parse([]byte(src), "f.json", files(map[string]string{"h2.sdf": sdf}))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if m := s.Molecules()[0]; m.Name != "dihydrogen" || len(m.Notes) != 1 || !strings.Contains(m.Notes[0], "the SD file holds 2 records") {
+		t.Fatalf("molecule %q notes %q", m.Name, m.Notes)
+	}
+	p, err := s.Plan()
+	if err != nil {
+		t.Fatal(err)
+	}
+	var got []string
+	for _, it := range p.Items {
+		j, err := it.Job(nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		got = append(got, fmt.Sprintf("%s %s freq=%v", it.Level.ID, j.Task, j.Freq != nil))
+	}
+	want := "a optimize freq=false; a frequencies freq=true; b optimize freq=true"
+	if strings.Join(got, "; ") != want {
+		t.Errorf("items %q, want %q", strings.Join(got, "; "), want)
 	}
 }

@@ -56,7 +56,8 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 	basisName := fs.String("basis", "cc-pvdz", "basis set `NAME` or alias (moltrail basis lists them), or a basis JSON file")
 	charge := fs.Int("charge", 0, "total charge")
 	mult := fs.Int("multiplicity", 0, "spin multiplicity (default: the lowest the electron count allows)")
-	task := fs.String("task", "energy", "the `TASK`: energy or optimize")
+	task := fs.String("task", "energy", "the `TASK`: energy, optimize or frequencies (harmonic, at the input geometry)")
+	freqs := fs.Bool("frequencies", false, "with --task optimize: harmonic frequencies at the optimised geometry (is it a minimum?)")
 	frozen := fs.Bool("frozen-core", false, "correlated methods: freeze the chemical core")
 	var tags multiFlag
 	fs.Var(&tags, "tag", "a tag `KEY=VALUE` stored with the record (repeatable)")
@@ -157,7 +158,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 	scf.EnergyTolHartree, scf.DensityTol, scf.GradientTol = *eTol, *dTol, *gTol
 	scf.MaxIter, scf.Guess, scf.DIISSize, scf.SchwarzThreshold, scf.LevelShiftHartree = *maxIter, *guess, *diis, *schwarz, *shift
 	req := engine.Request{Molecule: m, Method: *method, Basis: *basisName, Task: *task, FrozenCore: *frozen,
-		SCF: &scf, Grid: *grid, Origin: orig, RelaxedProps: *relaxed, AllowCloseAtoms: *closeOK}
+		SCF: &scf, Grid: *grid, Origin: orig, RelaxedProps: *relaxed, AllowCloseAtoms: *closeOK, Frequencies: *freqs}
 	if set["field-step"] || set["field-formula"] {
 		req.FieldStepAU, req.FieldFormula = *fieldStep, *fieldFormula
 	}

@@ -73,6 +73,7 @@ func writeRunSummary(w io.Writer, r *archive.Record, look archive.Lookup) {
 		if r.Results.DipoleDebye != nil {
 			fmt.Fprintf(w, "dipole   %s\n", vec(r.Results.DipoleDebye, "D"))
 		}
+		writeVibrationsLine(w, r.Results.Vibrations)
 	} else {
 		fmt.Fprintf(w, "error    %s\n", r.Results.Error)
 	}
@@ -180,6 +181,7 @@ func writeRecord(w io.Writer, r *archive.Record, notes []archive.Note, look arch
 		kv("optimisation", "%d geometries, last max force %.2e hartree/bohr, energy change over the run %.6f hartree",
 			len(tr), last.MaxForce, last.EnergyHartree-tr[0].EnergyHartree)
 	}
+	writeVibrations(w, res.Vibrations)
 	for _, n := range res.Notes {
 		fmt.Fprintf(w, "  note: %s\n", n)
 	}

@@ -9,6 +9,8 @@ const (
 	ElementaryChargeCoulomb = 1.602176634e-19
 	// SpeedOfLightMPerS is c (exact).
 	SpeedOfLightMPerS = 299792458.0
+	// PlanckJouleSecond is the Planck constant h (exact in the 2019 SI).
+	PlanckJouleSecond = 6.62607015e-34
 	// HartreeJoule is the Hartree energy in joule (CODATA 2018).
 	HartreeJoule = 4.3597447222071e-18
 	// AvogadroPerMol is N_A (exact).

@@ -94,12 +94,26 @@ func directional(energy func(x []float64) (float64, error), h float64, workers i
 // internalDirections is an orthonormal basis of the Cartesian directions
 // orthogonal to overall translation and rotation at x, in a fixed order.
 func internalDirections(x []float64) [][]float64 {
-	P := projector(x)
-	n := len(x)
+	return Complement(RigidBasis(x, nil), len(x))
+}
+
+// InternalDirections is the orthonormal basis of the 3N−6 (3N−5 for a
+// linear molecule) Cartesian directions orthogonal to overall translation
+// and rotation at x, in a fixed order.
+func InternalDirections(x []float64) [][]float64 { return internalDirections(x) }
+
+// Complement returns an orthonormal basis of the n-dimensional space
+// orthogonal to the orthonormal vectors basis, in a fixed order.
+func Complement(basis [][]float64, n int) [][]float64 {
 	sym := mat.NewSymDense(n, nil)
 	for i := 0; i < n; i++ {
-		for j := i; j < n; j++ {
-			sym.SetSym(i, j, 0.5*(P.At(i, j)+P.At(j, i)))
+		sym.SetSym(i, i, 1)
+	}
+	for _, b := range basis {
+		for i := 0; i < n; i++ {
+			for j := i; j < n; j++ {
+				sym.SetSym(i, j, sym.At(i, j)-b[i]*b[j])
+			}
 		}
 	}
 	var eig mat.EigenSym

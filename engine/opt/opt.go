@@ -168,12 +168,40 @@ func Minimize(m *molecule.Molecule, eg EnergyGradient, s Settings) (*Result, err
 // translations and rotations of the geometry x.
 func projector(x []float64) *mat.Dense {
 	n := len(x)
+	P := mat.NewDense(n, n, nil)
+	for i := 0; i < n; i++ {
+		P.Set(i, i, 1)
+	}
+	for _, b := range RigidBasis(x, nil) {
+		for i := 0; i < n; i++ {
+			for j := 0; j < n; j++ {
+				P.Set(i, j, P.At(i, j)-b[i]*b[j])
+			}
+		}
+	}
+	return P
+}
+
+// RigidBasis returns an orthonormal basis of the overall translations and
+// rotations of the geometry x (bohr, 3N): six vectors, five for a linear
+// molecule, three for an atom. With weights (one per atom) each atom's
+// components are multiplied by its weight — with √mass, the rigid motions in
+// mass-weighted coordinates. The span does not depend on the centre the
+// rotations are taken about, since the translations are in it.
+func RigidBasis(x []float64, weights []float64) [][]float64 {
+	n := len(x)
 	na := n / 3
+	w := func(a int) float64 {
+		if weights == nil {
+			return 1
+		}
+		return weights[a]
+	}
 	var vecs [][]float64
 	for k := 0; k < 3; k++ {
 		v := make([]float64, n)
 		for a := 0; a < na; a++ {
-			v[3*a+k] = 1
+			v[3*a+k] = w(a)
 		}
 		vecs = append(vecs, v)
 	}
@@ -190,44 +218,37 @@ func projector(x []float64) *mat.Dense {
 			// rotation about axis k: e_k × r
 			switch k {
 			case 0:
-				v[3*a+1], v[3*a+2] = -r[2], r[1]
+				v[3*a+1], v[3*a+2] = -r[2]*w(a), r[1]*w(a)
 			case 1:
-				v[3*a], v[3*a+2] = r[2], -r[0]
+				v[3*a], v[3*a+2] = r[2]*w(a), -r[0]*w(a)
 			case 2:
-				v[3*a], v[3*a+1] = -r[1], r[0]
+				v[3*a], v[3*a+1] = -r[1]*w(a), r[0]*w(a)
 			}
 		}
 		vecs = append(vecs, v)
 	}
-	// Gram–Schmidt, dropping dependent vectors (linear molecules, atoms).
+	// Gram–Schmidt (twice, for orthogonality to rounding), dropping
+	// dependent vectors (linear molecules, atoms).
 	var basis [][]float64
 	for _, v := range vecs {
-		for _, b := range basis {
-			d := dotv(v, b)
-			for i := range v {
-				v[i] -= d * b[i]
+		scale := math.Sqrt(dotv(v, v))
+		for pass := 0; pass < 2; pass++ {
+			for _, b := range basis {
+				d := dotv(v, b)
+				for i := range v {
+					v[i] -= d * b[i]
+				}
 			}
 		}
 		nv := math.Sqrt(dotv(v, v))
-		if nv > 1e-6 {
+		if nv > 1e-6*math.Max(scale, 1) {
 			for i := range v {
 				v[i] /= nv
 			}
 			basis = append(basis, v)
 		}
 	}
-	P := mat.NewDense(n, n, nil)
-	for i := 0; i < n; i++ {
-		P.Set(i, i, 1)
-	}
-	for _, b := range basis {
-		for i := 0; i < n; i++ {
-			for j := 0; j < n; j++ {
-				P.Set(i, j, P.At(i, j)-b[i]*b[j])
-			}
-		}
-	}
-	return P
+	return basis
 }
 
 // rfoStep returns the rational-function step in the space free of
