@@ -55,6 +55,9 @@ func checkDir(dir string, readOnly bool) error {
 	if err != nil {
 		return fmt.Errorf("archive %s cannot be opened: %v", dir, pathErr(err))
 	}
+	// The claims directory may come first: a study claims its first item
+	// before the first record creates the store.
+	ents = slices.DeleteFunc(ents, func(e os.DirEntry) bool { return e.Name() == claimsDir && e.IsDir() })
 	if len(ents) > 0 {
 		return &sentinelError{ErrNotArchive, fmt.Sprintf("%s holds %d file(s) but no archive; give an empty or new directory for a new archive", dir, len(ents))}
 	}

@@ -154,8 +154,16 @@ func (s *Store) ImportRecords(recs []*Record, lines []int, source string, progre
 		}
 		good = append(good, rec)
 	}
-	n, err := s.PutManyProgress(good, progress)
+	n, conflicts, err := s.putMany(good, progress)
 	rep.Imported = n
-	rep.Skipped = len(good) - n
+	rep.Skipped = len(good) - n - len(conflicts)
+	for _, id := range conflicts {
+		for i, rec := range recs {
+			if rec.ID == id {
+				rep.Refused = append(rep.Refused, Refusal{Line: lines[i], ID: id, Reason: fmt.Sprintf("%s:%d: record %s… refused: %s", source, lines[i], short(id), conflictReason)})
+				break
+			}
+		}
+	}
 	return rep, err
 }

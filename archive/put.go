@@ -1,6 +1,7 @@
 package archive
 
 import (
+	"bytes"
 	"encoding/json"
 	"errors"
 	"fmt"
@@ -70,10 +71,41 @@ func (s *Store) Put(r *Record) (bool, error) {
 func (s *Store) PutMany(recs []*Record) (int, error) { return s.PutManyProgress(recs, nil) }
 
 // PutManyProgress is PutMany calling progress(done, total) after each
-// committed transaction.
+// committed transaction. A record whose id is stored with other bytes is
+// not written; the error then names it (see ConflictError).
 func (s *Store) PutManyProgress(recs []*Record, progress func(done, total int)) (int, error) {
+	n, conflicts, err := s.putMany(recs, progress)
+	if err == nil && len(conflicts) > 0 {
+		err = &ConflictError{Dir: s.dir, IDs: conflicts}
+	}
+	return n, err
+}
+
+// ConflictError names records whose id the archive already holds with
+// different bytes. Ids are content hashes, so one of the two copies is
+// damaged or forged; neither is changed.
+type ConflictError struct {
+	Dir string
+	IDs []string
+}
+
+func (e *ConflictError) Error() string {
+	var ids []string
+	for _, id := range e.IDs {
+		ids = append(ids, short(id)+"…")
+	}
+	return fmt.Sprintf("archive %s already holds a different record under the id %s; it was not overwritten", e.Dir, strings.Join(ids, ", "))
+}
+
+// conflictReason is the refusal text for a record whose id is stored with
+// other bytes.
+const conflictReason = "the archive already holds a different record under this id (one of the two copies is damaged or forged); it was not overwritten"
+
+// putMany stores records like PutMany and returns, besides how many were
+// new, the ids already stored with different bytes (left as they are).
+func (s *Store) putMany(recs []*Record, progress func(done, total int)) (int, []string, error) {
 	if s.readOnly {
-		return 0, fmt.Errorf("archive %s is open read-only", s.dir)
+		return 0, nil, fmt.Errorf("archive %s is open read-only", s.dir)
 	}
 	type staged struct {
 		id      string
@@ -83,7 +115,7 @@ func (s *Store) PutManyProgress(recs []*Record, progress func(done, total int)) 
 	seen := map[string]bool{}
 	for _, r := range recs {
 		if err := r.Check(); err != nil {
-			return 0, fmt.Errorf("record %s is not sealed: %v", short(r.ID), err)
+			return 0, nil, fmt.Errorf("record %s is not sealed: %v", short(r.ID), err)
 		}
 		if seen[r.ID] {
 			continue
@@ -91,11 +123,11 @@ func (s *Store) PutManyProgress(recs []*Record, progress func(done, total int)) 
 		seen[r.ID] = true
 		val, err := r.Encode()
 		if err != nil {
-			return 0, err
+			return 0, nil, err
 		}
 		sum, err := json.Marshal(Summarise(r))
 		if err != nil {
-			return 0, err
+			return 0, nil, err
 		}
 		st := staged{id: r.ID}
 		st.entries = append(st.entries, [2][]byte{[]byte(pRecord + r.ID), val}, [2][]byte{[]byte(pSummary + r.ID), sum})
@@ -105,6 +137,7 @@ func (s *Store) PutManyProgress(recs []*Record, progress func(done, total int)) 
 		all = append(all, st)
 	}
 	added := 0
+	var conflicts []string
 	limit := len(all)
 	for len(all) > 0 {
 		if limit > len(all) {
@@ -115,12 +148,20 @@ func (s *Store) PutManyProgress(recs []*Record, progress func(done, total int)) 
 		tooBig := false
 		for n < limit {
 			st := all[n]
-			if _, err := txn.Get([]byte(pRecord + st.id)); err == nil {
+			if item, err := txn.Get([]byte(pRecord + st.id)); err == nil {
+				same := false
+				if err := item.Value(func(v []byte) error { same = bytes.Equal(v, st.entries[0][1]); return nil }); err != nil {
+					txn.Discard()
+					return added, conflicts, err
+				}
+				if !same {
+					conflicts = append(conflicts, st.id)
+				}
 				n++
 				continue
 			} else if !errors.Is(err, badger.ErrKeyNotFound) {
 				txn.Discard()
-				return added, err
+				return added, conflicts, err
 			}
 			var err error
 			for _, e := range st.entries {
@@ -134,7 +175,7 @@ func (s *Store) PutManyProgress(recs []*Record, progress func(done, total int)) 
 			}
 			if err != nil {
 				txn.Discard()
-				return added, err
+				return added, conflicts, err
 			}
 			n++
 			fresh++
@@ -144,7 +185,7 @@ func (s *Store) PutManyProgress(recs []*Record, progress func(done, total int)) 
 			// with only the records that fit whole.
 			txn.Discard()
 			if n == 0 {
-				return added, fmt.Errorf("record %s is too large for one archive transaction", short(all[0].id))
+				return added, conflicts, fmt.Errorf("record %s is too large for one archive transaction", short(all[0].id))
 			}
 			limit = n
 			continue
@@ -153,7 +194,7 @@ func (s *Store) PutManyProgress(recs []*Record, progress func(done, total int)) 
 			time.Sleep(testHoldCommit)
 		}
 		if err := txn.Commit(); err != nil {
-			return added, fmt.Errorf("archive %s: write failed: %v", s.dir, err)
+			return added, conflicts, fmt.Errorf("archive %s: write failed: %v", s.dir, err)
 		}
 		added += fresh
 		all = all[n:]
@@ -161,7 +202,7 @@ func (s *Store) PutManyProgress(recs []*Record, progress func(done, total int)) 
 			progress(len(seen)-len(all), len(seen))
 		}
 	}
-	return added, nil
+	return added, conflicts, nil
 }
 
 // Get returns the record with this full id and its stored bytes.

@@ -60,6 +60,21 @@ type Run struct {
 	Host         string  `json:"host"`
 	Threads      int     `json:"threads"`
 	PeakMemoryMB float64 `json:"peak_memory_mib"`
+	// Batch is the batch-scheduler job the record was computed in (absent
+	// outside one). It is provenance only: it is not part of the input.
+	Batch *BatchJob `json:"batch_job,omitempty"`
+}
+
+// BatchJob identifies a batch-scheduler job (today: Slurm).
+type BatchJob struct {
+	// Scheduler is "slurm".
+	Scheduler string `json:"scheduler"`
+	JobID     string `json:"job_id"`
+	// ArrayJobID and ArrayTaskID are set for a task of an array job.
+	ArrayJobID  string `json:"array_job_id,omitempty"`
+	ArrayTaskID string `json:"array_task_id,omitempty"`
+	// Node is the scheduler's name for the compute node.
+	Node string `json:"node,omitempty"`
 }
 
 // Link ties a record to one it derives from.

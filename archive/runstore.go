@@ -6,6 +6,7 @@ import (
 	"io"
 	"os"
 	"runtime"
+	"strings"
 	"time"
 
 	"moltrail/engine"
@@ -151,7 +152,8 @@ func Compute(req RunRequest, code Code, lineage []Link, compute Computer) (*Reco
 		Lineage: lineage,
 		Tags:    map[string]string{},
 		Run: Run{StartUTC: start.Format(time.RFC3339Nano), EndUTC: end.Format(time.RFC3339Nano),
-			WallSeconds: end.Sub(start).Seconds(), Host: host, Threads: threads, PeakMemoryMB: peakMemoryMiB()},
+			WallSeconds: end.Sub(start).Seconds(), Host: host, Threads: threads, PeakMemoryMB: peakMemoryMiB(),
+			Batch: BatchJobFromEnv(os.Getenv)},
 	}
 	for k, v := range req.Tags {
 		rec.Tags[k] = v
@@ -183,6 +185,18 @@ func Compute(req RunRequest, code Code, lineage []Link, compute Computer) (*Reco
 		}
 	}
 	return rec, nil
+}
+
+// BatchJobFromEnv describes the Slurm job this process runs in, read from
+// the variables Slurm sets (SLURM_JOB_ID, SLURM_ARRAY_JOB_ID,
+// SLURM_ARRAY_TASK_ID, SLURMD_NODENAME), or nil outside a Slurm job.
+func BatchJobFromEnv(getenv func(string) string) *BatchJob {
+	id := strings.TrimSpace(getenv("SLURM_JOB_ID"))
+	if id == "" {
+		return nil
+	}
+	return &BatchJob{Scheduler: "slurm", JobID: id, ArrayJobID: strings.TrimSpace(getenv("SLURM_ARRAY_JOB_ID")),
+		ArrayTaskID: strings.TrimSpace(getenv("SLURM_ARRAY_TASK_ID")), Node: strings.TrimSpace(getenv("SLURMD_NODENAME"))}
 }
 
 func failedResult(job *engine.Job, msg string) engine.Result {

@@ -210,6 +210,9 @@ func writeRecord(w io.Writer, r *archive.Record, notes []archive.Note, look arch
 	kv("started UTC", "%s", utc(r.Run.StartUTC))
 	kv("ended UTC", "%s", utc(r.Run.EndUTC))
 	kv("wall time", "%.3f s on %s, %d threads, peak memory %.1f MiB", r.Run.WallSeconds, r.Run.Host, r.Run.Threads, r.Run.PeakMemoryMB)
+	if b := r.Run.Batch; b != nil {
+		kv("batch job", "%s", batchJobText(b))
+	}
 	if len(r.Lineage) > 0 || len(r.Tags) > 0 {
 		sec("lineage and tags")
 		for _, l := range r.Lineage {
@@ -237,4 +240,16 @@ func writeRecord(w io.Writer, r *archive.Record, notes []archive.Note, look arch
 			fmt.Fprintf(w, "  %s  %s\n", utc(n.TimeUTC), n.Text)
 		}
 	}
+}
+
+// batchJobText is a one-line account of a record's batch job.
+func batchJobText(b *archive.BatchJob) string {
+	s := b.Scheduler + " job " + b.JobID
+	if b.ArrayJobID != "" {
+		s += " (array " + b.ArrayJobID + ", task " + b.ArrayTaskID + ")"
+	}
+	if b.Node != "" {
+		s += " on node " + b.Node
+	}
+	return s
 }
