@@ -55,13 +55,33 @@ func checkDir(dir string, readOnly bool) error {
 	if err != nil {
 		return fmt.Errorf("archive %s cannot be opened: %v", dir, pathErr(err))
 	}
-	// The claims directory may come first: a study claims its first item
-	// before the first record creates the store.
-	ents = slices.DeleteFunc(ents, func(e os.DirEntry) bool { return e.Name() == claimsDir && e.IsDir() })
+	// The claims directory may come first (a study claims its first item
+	// before the first record creates the store), and the store's own
+	// files appear before its MANIFEST while another process creates it.
+	ents = slices.DeleteFunc(ents, func(e os.DirEntry) bool {
+		if e.IsDir() {
+			return e.Name() == claimsDir
+		}
+		return storeFile(e.Name())
+	})
 	if len(ents) > 0 {
 		return &sentinelError{ErrNotArchive, fmt.Sprintf("%s holds %d file(s) but no archive; give an empty or new directory for a new archive", dir, len(ents))}
 	}
 	return nil
+}
+
+// storeFile reports whether name is one of the files badger keeps in a
+// store directory.
+func storeFile(name string) bool {
+	switch name {
+	case "MANIFEST", "MANIFEST-REWRITE", "KEYREGISTRY", "KEYREGISTRY-REWRITE", "LOCK", "DISCARD":
+		return true
+	}
+	switch filepath.Ext(name) {
+	case ".vlog", ".sst", ".mem":
+		return true
+	}
+	return false
 }
 
 // checkTables checks the footer of every table file (*.sst) that the

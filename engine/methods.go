@@ -134,7 +134,7 @@ func NewJob(r Request) (*Job, error) {
 	if !ok {
 		return nil, fmt.Errorf("method %q is not known (known: %s)", r.Method, strings.Join(MethodNames(), ", "))
 	}
-	set, err := basis.Load(r.Basis)
+	set, err := basis.LoadShared(r.Basis) // only read here
 	if err != nil {
 		return nil, err
 	}

@@ -63,3 +63,19 @@ func BenchmarkRunStoreEach(b *testing.B) {
 	}
 	b.ReportMetric(float64(len(p.Items)), "items")
 }
+
+// BenchmarkPlanShards10000 parses a study of 10,000 items, plans it,
+// splits it into 100 shards and dry-runs one shard against an empty
+// archive: what every array task does before its first calculation.
+func BenchmarkPlanShards10000(b *testing.B) {
+	for i := 0; i < b.N; i++ {
+		p := bigPlan(b, 1250)
+		sp, err := p.Shard(Part{K: 7, N: 100})
+		if err != nil {
+			b.Fatal(err)
+		}
+		if _, err := DryRun(sp, Options{Archive: filepath.Join(b.TempDir(), "none")}); err != nil {
+			b.Fatal(err)
+		}
+	}
+}

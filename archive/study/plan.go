@@ -72,6 +72,8 @@ func (it *Item) Job(geom *molecule.Molecule) (*engine.Job, error) {
 type Plan struct {
 	Study *Study
 	Items []*Item
+	// Part is set for the plan of one shard (see Shard); nil for the whole study.
+	Part *Part
 }
 
 // Plan expands the study's tasks into items (each molecule × level × task

@@ -120,7 +120,11 @@ type Summary struct {
 	Jobs          int          `json:"jobs"`
 	ThreadsPerJob int          `json:"threads_per_calculation"`
 	Interrupted   bool         `json:"interrupted"`
-	WallSeconds   float64      `json:"wall_seconds"`
+	// Shard is set when the run covered one shard of the study.
+	Shard *Part `json:"shard,omitempty"`
+	// ReuseFrom lists the other archives consulted for stored records.
+	ReuseFrom   []string `json:"reuse_from,omitempty"`
+	WallSeconds float64  `json:"wall_seconds"`
 	Counts        Counts       `json:"counts"`
 	Items         []ItemResult `json:"items"`
 }
@@ -153,6 +157,9 @@ const (
 	EventFinished = "finished"
 	// EventStopping: the context was cancelled; nothing new starts.
 	EventStopping = "stopping"
+	// EventElsewhere: another process is computing this item's input in
+	// the same archive; Run waits for its record (Item is set).
+	EventElsewhere = "elsewhere"
 )
 
 // Event is a progress report from Run.
@@ -173,13 +180,23 @@ type Progress struct {
 	// ComputedSoFar is how many calculations have ended.
 	ComputedSoFar int
 	Running       int
-	Counts        Counts
+	// Elsewhere counts items another process is computing.
+	Elsewhere int
+	Counts    Counts
 }
 
 // Options control Run.
 type Options struct {
-	// Archive is the archive directory.
+	// Archive is the archive directory: records are looked up and stored
+	// there.
 	Archive string
+	// ReuseFrom are further archives, only read: an item whose input one
+	// of them holds at this code version is reused (a shard's run reads
+	// the study's merged archive this way).
+	ReuseFrom []string
+	// ClaimPoll is how often Run looks again at items another process is
+	// computing in the same archive (0 = one second).
+	ClaimPoll time.Duration
 	// Jobs is the number of calculations run at once (default 1).
 	Jobs int
 	// Threads is each calculation's thread count (0 = max(1, cores/Jobs)).
@@ -220,6 +237,8 @@ func ThreadsPerJob(jobs, threads int) int {
 const (
 	stWaiting = iota
 	stReady
+	// stElsewhere: ready, but another process holds the item's claim.
+	stElsewhere
 	stRunning
 	stFinished
 )
@@ -233,6 +252,26 @@ type node struct {
 	prev    *archive.Record
 	state   int
 	res     ItemResult
+	// claim is held while the item is computed by this run.
+	claim *archive.Claim
+	// said is true once the item was reported as computed elsewhere.
+	said bool
+}
+
+// newNodes makes the nodes of a plan, each linked to its dependency.
+func newNodes(p *Plan) []*node {
+	nodes := make([]*node, len(p.Items))
+	byItem := make(map[*Item]*node, len(p.Items))
+	for i, it := range p.Items {
+		nodes[i] = &node{it: it, res: baseResult(it)}
+		byItem[it] = nodes[i]
+	}
+	for _, n := range nodes {
+		if n.it.From != nil {
+			n.dep = byItem[n.it.From]
+		}
+	}
+	return nodes
 }
 
 func baseResult(it *Item) ItemResult {
@@ -281,28 +320,45 @@ func (p *Plan) tags() map[string]string {
 	return t
 }
 
-// lookup returns the stored records (at this code version) of the keys.
-func lookup(dir string, wait time.Duration, keys []string) (map[string]*archive.Record, error) {
+// lookup returns the stored records (at this code version) of the keys,
+// from the first of the archives that holds each (an archive that does
+// not exist yet holds nothing).
+func lookup(dirs []string, wait time.Duration, keys []string) (map[string]*archive.Record, error) {
 	out := map[string]*archive.Record{}
-	st, err := archive.Open(dir, archive.OpenOptions{ReadOnly: true, Wait: wait})
-	if errors.Is(err, archive.ErrNoArchive) {
-		return out, nil
-	}
-	if err != nil {
-		return nil, err
-	}
-	defer st.Close()
 	code := archive.CurrentCode()
-	for _, k := range keys {
-		r, err := st.FindSameBuild(k, code)
+	for _, dir := range dirs {
+		if len(out) == len(keys) {
+			break
+		}
+		st, err := archive.Open(dir, archive.OpenOptions{ReadOnly: true, Wait: wait})
+		if errors.Is(err, archive.ErrNoArchive) {
+			continue
+		}
 		if err != nil {
 			return nil, err
 		}
-		if r != nil {
-			out[k] = r
+		for _, k := range keys {
+			if out[k] != nil {
+				continue
+			}
+			r, err := st.FindSameBuild(k, code)
+			if err != nil {
+				st.Close()
+				return nil, err
+			}
+			if r != nil {
+				out[k] = r
+			}
 		}
+		st.Close()
 	}
 	return out, nil
+}
+
+// reusable reports whether a stored record ends the item (a failed one
+// does not when failures are retried).
+func reusable(r *archive.Record, retryFailed bool) bool {
+	return r != nil && (!retryFailed || r.Status == engine.StatusConverged)
 }
 
 func store(dir string, wait time.Duration, rec *archive.Record) error {
@@ -321,8 +377,11 @@ func store(dir string, wait time.Duration, rec *archive.Record) error {
 }
 
 type workDone struct {
-	n       *node
-	rec     *archive.Record
+	n   *node
+	rec *archive.Record
+	// stored: rec was found in the archive after the claim was taken
+	// (another process computed it meanwhile); nothing was computed.
+	stored  bool
 	err     error
 	seconds float64
 }
@@ -334,6 +393,13 @@ type workDone struct {
 // waits for the running ones (see Options.Abandon) and reports the rest
 // as pending. Failed items do not stop the others. The error is non-nil
 // only when the run could not start (e.g. the archive cannot be read).
+//
+// Before computing an item Run claims its input key in the archive (see
+// archive.Claim) and looks again whether it is stored; an item claimed by
+// another process (a second study on the same archive) is not computed
+// here: Run waits for that process's record and reuses it, or computes the
+// item itself when that process ends without storing it. So two runs on
+// one archive never compute the same input twice.
 func Run(ctx context.Context, p *Plan, o Options) (*Summary, error) {
 	if o.Compute == nil {
 		return nil, fmt.Errorf("study run: no compute function")
@@ -346,12 +412,11 @@ func Run(ctx context.Context, p *Plan, o Options) (*Summary, error) {
 	threads := ThreadsPerJob(jobs, o.Threads)
 	tags := p.tags()
 	code := archive.CurrentCode()
-	nodes := make([]*node, len(p.Items))
-	for i, it := range p.Items {
-		nodes[i] = &node{it: it, res: baseResult(it)}
-		if it.From != nil {
-			nodes[i].dep = nodes[it.From.Index]
-		}
+	nodes := newNodes(p)
+	dirs := append([]string{o.Archive}, o.ReuseFrom...)
+	poll := o.ClaimPoll
+	if poll <= 0 {
+		poll = time.Second
 	}
 	var (
 		storeMu   sync.Mutex
@@ -371,6 +436,9 @@ func Run(ctx context.Context, p *Plan, o Options) (*Summary, error) {
 			case stFinished:
 				pr.Finished++
 				pr.Counts.add(&n.res)
+			case stElsewhere:
+				pr.Elsewhere++
+				fallthrough
 			case stWaiting, stReady:
 				if !stopping {
 					pr.ToCompute++
@@ -410,6 +478,16 @@ func Run(ctx context.Context, p *Plan, o Options) (*Summary, error) {
 	}
 	work := func(n *node) {
 		t0 := time.Now()
+		defer n.claim.Release()
+		// Another process may have stored the item between the look-up
+		// and the claim.
+		storeMu.Lock()
+		found, err := lookup([]string{o.Archive}, o.Wait, []string{n.key})
+		storeMu.Unlock()
+		if r := found[n.key]; err == nil && reusable(r, o.RetryFailed) {
+			doneCh <- workDone{n: n, rec: r, stored: true, seconds: time.Since(t0).Seconds()}
+			return
+		}
 		lineage := append([]archive.Link{}, n.lineage...)
 		if n.prev != nil {
 			lineage = append(lineage, archive.Link{Relation: archive.Recomputes, ID: n.prev.ID})
@@ -465,7 +543,7 @@ func Run(ctx context.Context, p *Plan, o Options) (*Summary, error) {
 				}
 				// Under the store lock: a read-only open would only wait for our own writer.
 				storeMu.Lock()
-				found, err := lookup(o.Archive, o.Wait, keys)
+				found, err := lookup(dirs, o.Wait, keys)
 				storeMu.Unlock()
 				if err != nil && !planned {
 					return nil, err
@@ -474,7 +552,7 @@ func Run(ctx context.Context, p *Plan, o Options) (*Summary, error) {
 					switch r := found[n.key]; {
 					case err != nil:
 						finish(n, Errored, nil, "the archive could not be read: "+err.Error())
-					case r != nil && (!o.RetryFailed || r.Status == engine.StatusConverged):
+					case reusable(r, o.RetryFailed):
 						finish(n, Reused, r, "")
 					default:
 						n.prev = r
@@ -508,14 +586,38 @@ func Run(ctx context.Context, p *Plan, o Options) (*Summary, error) {
 			if n.state != stReady || inflight[n.key] != nil {
 				continue
 			}
+			c, held, err := archive.TryClaim(o.Archive, n.key)
+			if err != nil {
+				finish(n, Errored, nil, "the item could not be claimed in the archive: "+err.Error())
+				continue
+			}
+			if held {
+				n.state = stElsewhere
+				if !n.said {
+					n.said = true
+					emit(EventElsewhere, &n.res)
+				}
+				continue
+			}
+			n.claim = c
 			n.state = stRunning
 			inflight[n.key] = n
 			running++
 			emit(EventStarted, &n.res)
 			go work(n)
 		}
-		if running == 0 {
+		elsewhere := 0
+		for _, n := range nodes {
+			if n.state == stElsewhere {
+				elsewhere++
+			}
+		}
+		if running == 0 && (elsewhere == 0 || stopping) {
 			break
+		}
+		var pollC <-chan time.Time
+		if elsewhere > 0 && !stopping {
+			pollC = time.After(poll)
 		}
 		if !stopping {
 			abandon = nil
@@ -533,11 +635,24 @@ func Run(ctx context.Context, p *Plan, o Options) (*Summary, error) {
 				break
 			}
 			produced[d.n.key] = d.rec
-			finish(d.n, Computed, d.rec, "")
+			if d.stored {
+				computed--
+				finish(d.n, Reused, d.rec, "")
+			} else {
+				finish(d.n, Computed, d.rec, "")
+			}
 			// Items with the same input that waited for this one.
 			for _, m := range nodes {
 				if m.state == stReady && m.key == d.n.key {
 					finish(m, Reused, d.rec, "")
+				}
+			}
+		case <-pollC:
+			// Try the items other processes hold again: a claim that has
+			// been given up (stored, or its process ended) can be taken.
+			for _, n := range nodes {
+				if n.state == stElsewhere {
+					n.state = stReady
 				}
 			}
 		case <-ctxDone:
@@ -555,9 +670,12 @@ func Run(ctx context.Context, p *Plan, o Options) (*Summary, error) {
 					running--
 					computed++
 					d.n.res.WallSeconds = d.seconds
-					if d.err != nil {
+					switch {
+					case d.err != nil:
 						finish(d.n, Errored, nil, d.err.Error())
-					} else {
+					case d.stored:
+						finish(d.n, Reused, d.rec, "")
+					default:
 						finish(d.n, Computed, d.rec, "")
 					}
 					continue
@@ -571,7 +689,8 @@ func Run(ctx context.Context, p *Plan, o Options) (*Summary, error) {
 			break
 		}
 	}
-	sum := &Summary{Study: p.Study.Name, StudyFile: p.Study.Origin, Archive: o.Archive, Jobs: jobs, ThreadsPerJob: threads}
+	sum := &Summary{Study: p.Study.Name, StudyFile: p.Study.Origin, Archive: o.Archive, Jobs: jobs, ThreadsPerJob: threads,
+		Shard: p.Part, ReuseFrom: o.ReuseFrom}
 	for _, n := range nodes {
 		if n.state != stFinished {
 			n.res.Outcome = Pending
@@ -610,13 +729,7 @@ func DryRun(p *Plan, o Options) (*Summary, error) {
 	if jobs < 1 {
 		jobs = 1
 	}
-	nodes := make([]*node, len(p.Items))
-	for i, it := range p.Items {
-		nodes[i] = &node{it: it, res: baseResult(it)}
-		if it.From != nil {
-			nodes[i].dep = nodes[it.From.Index]
-		}
-	}
+	nodes := newNodes(p)
 	for pass := 0; pass < 2; pass++ {
 		var look []*node
 		for _, n := range nodes {
@@ -643,14 +756,14 @@ func DryRun(p *Plan, o Options) (*Summary, error) {
 		for i, n := range look {
 			keys[i] = n.key
 		}
-		found, err := lookup(o.Archive, o.Wait, keys)
+		found, err := lookup(append([]string{o.Archive}, o.ReuseFrom...), o.Wait, keys)
 		if err != nil {
 			return nil, err
 		}
 		for _, n := range look {
 			n.state = stFinished
 			r := found[n.key]
-			if r != nil && (!o.RetryFailed || r.Status == engine.StatusConverged) {
+			if reusable(r, o.RetryFailed) {
 				n.res.Outcome = WouldReuse
 				n.res.Record, n.res.RecordID, n.res.Status = r, r.ID, r.Status
 				n.res.Error = ""
@@ -663,7 +776,7 @@ func DryRun(p *Plan, o Options) (*Summary, error) {
 		}
 	}
 	sum := &Summary{Study: p.Study.Name, StudyFile: p.Study.Origin, Archive: o.Archive, DryRun: true,
-		Jobs: jobs, ThreadsPerJob: ThreadsPerJob(jobs, o.Threads)}
+		Jobs: jobs, ThreadsPerJob: ThreadsPerJob(jobs, o.Threads), Shard: p.Part, ReuseFrom: o.ReuseFrom}
 	for _, n := range nodes {
 		sum.Counts.add(&n.res)
 		sum.Items = append(sum.Items, n.res)

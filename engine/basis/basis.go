@@ -23,6 +23,7 @@ import (
 	"os"
 	"sort"
 	"strings"
+	"sync"
 
 	"moltrail/engine/molecule"
 )
@@ -115,6 +116,25 @@ func Library() []Info {
 
 // Builtin returns the built-in set with this name or alias (case-insensitive).
 func Builtin(name string) (*Set, error) {
+	s, err := builtinShared(name)
+	if err != nil {
+		return nil, err
+	}
+	return s.clone(), nil
+}
+
+// LoadShared is Load, except that a built-in set is the library's own
+// parsed copy, shared by every caller: it must not be changed. It serves
+// callers that only read a set's name, hash and element list (building
+// many jobs), where a copy per call would cost more than the job.
+func LoadShared(nameOrPath string) (*Set, error) {
+	if isPath(nameOrPath) {
+		return ReadFile(nameOrPath)
+	}
+	return builtinShared(nameOrPath)
+}
+
+func builtinShared(name string) (*Set, error) {
 	key := Normalize(name)
 	for _, e := range index {
 		match := Normalize(e.Name) == key
@@ -124,11 +144,19 @@ func Builtin(name string) (*Set, error) {
 		if !match {
 			continue
 		}
+		if s, ok := builtinSets.Load(e.File); ok {
+			return s.(*Set), nil
+		}
 		b, err := dataFS.ReadFile("data/" + e.File)
 		if err != nil {
 			return nil, fmt.Errorf("basis %q: embedded file %s missing: %w", e.Name, e.File, err)
 		}
-		return parse(b, "builtin:"+e.File)
+		s, err := parse(b, "builtin:"+e.File)
+		if err != nil {
+			return nil, err
+		}
+		builtinSets.Store(e.File, s)
+		return s, nil
 	}
 	var names []string
 	for _, e := range index {
@@ -137,13 +165,40 @@ func Builtin(name string) (*Set, error) {
 	return nil, fmt.Errorf("basis %q is not in the library (known: %s); a file of your own can be given by path", name, strings.Join(names, ", "))
 }
 
+// builtinSets holds each embedded set parsed once (file name → *Set);
+// callers get copies, so none can change another's.
+var builtinSets sync.Map
+
+// clone is a deep copy of the set.
+func (s *Set) clone() *Set {
+	c := *s
+	c.Aliases = append([]string(nil), s.Aliases...)
+	c.References = append([]string(nil), s.References...)
+	c.raw = append([]byte(nil), s.raw...)
+	c.Elements = make(map[string][]ShellData, len(s.Elements))
+	for el, shells := range s.Elements {
+		cs := make([]ShellData, len(shells))
+		for i, sh := range shells {
+			cs[i] = ShellData{L: sh.L, Exponents: append([]float64(nil), sh.Exponents...), Coefficients: append([]float64(nil), sh.Coefficients...)}
+		}
+		c.Elements[el] = cs
+	}
+	return &c
+}
+
 // Load resolves a basis by library name/alias, or, when the argument names
 // an existing file (or ends in .json), reads that file.
 func Load(nameOrPath string) (*Set, error) {
-	if strings.HasSuffix(strings.ToLower(nameOrPath), ".json") || strings.ContainsRune(nameOrPath, os.PathSeparator) {
+	if isPath(nameOrPath) {
 		return ReadFile(nameOrPath)
 	}
 	return Builtin(nameOrPath)
+}
+
+// isPath reports whether a basis argument names a file rather than a
+// library entry.
+func isPath(nameOrPath string) bool {
+	return strings.HasSuffix(strings.ToLower(nameOrPath), ".json") || strings.ContainsRune(nameOrPath, os.PathSeparator)
 }
 
 // ReadFile reads a user-supplied basis file in the library's JSON layout.
