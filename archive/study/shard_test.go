@@ -312,4 +312,3 @@ func TestItemClaimedElsewhereIsComputedWhenTheClaimEnds(t *testing.T) {
 		t.Fatalf("claimed input computed %d times; %d of %d inputs computed", f.calls[key], len(f.calls), len(p.Items))
 	}
 }
-
