@@ -113,20 +113,20 @@ func (c *Counts) add(r *ItemResult) {
 
 // Summary is the outcome of a run (or a dry run).
 type Summary struct {
-	Study         string `json:"study"`
-	StudyFile     string `json:"study_file"`
-	Archive       string `json:"archive"`
-	DryRun        bool   `json:"dry_run"`
-	Jobs          int    `json:"jobs"`
-	ThreadsPerJob int    `json:"threads_per_calculation"`
-	Interrupted   bool   `json:"interrupted"`
+	Study         string       `json:"study"`
+	StudyFile     string       `json:"study_file"`
+	Archive       string       `json:"archive"`
+	DryRun        bool         `json:"dry_run"`
+	Jobs          int          `json:"jobs"`
+	ThreadsPerJob int          `json:"threads_per_calculation"`
+	Interrupted   bool         `json:"interrupted"`
+	WallSeconds   float64      `json:"wall_seconds"`
+	Counts        Counts       `json:"counts"`
+	Items         []ItemResult `json:"items"`
 	// Shard is set when the run covered one shard of the study.
 	Shard *Part `json:"shard,omitempty"`
 	// ReuseFrom lists the other archives consulted for stored records.
-	ReuseFrom   []string     `json:"reuse_from,omitempty"`
-	WallSeconds float64      `json:"wall_seconds"`
-	Counts      Counts       `json:"counts"`
-	Items       []ItemResult `json:"items"`
+	ReuseFrom []string `json:"reuse_from,omitempty"`
 }
 
 // OK reports whether every item has a converged record.
