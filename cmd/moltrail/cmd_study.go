@@ -45,6 +45,21 @@ never changes a number either.
 Ctrl-C once: no new calculation starts, the running ones finish and are
 stored. Ctrl-C twice: the running ones are abandoned (nothing half-stored).
 
+Several runs may share one archive (two terminals, a resubmitted shard):
+each input is claimed in the archive before it is computed, and a run that
+finds an item claimed waits for the other's record instead of computing it
+again. A claim ends with its process, however that process ends.
+
+Shards: --shard K/N runs only shard K of N. The split depends on the study
+file alone, so separate machines agree on it without talking; an
+optimisation and every single point on its geometry land in the same shard,
+so no shard waits for another; shards differ in size by at most one such
+group. Give each shard its own --archive, let --reuse-from name the study's
+archive (read only), and bring the shard archives together with moltrail
+merge. A shard run writes no report (report.output is not used); run the
+study with --report on the merged archive (it reuses every item).
+moltrail cluster does all of this on Slurm.
+
 Exit status: 0 every item has a converged record, 1 anything failed, did
 not converge, was skipped or is still to do, 2 bad usage or a bad study file.
 `
@@ -58,6 +73,7 @@ type studyRun struct {
 	threads   int
 	memory    int64 // per calculation; 0 = the engine's default over jobs
 	retry     bool
+	reuse     []string
 	reportOut string
 	refs      string
 	reportOps report.Options
@@ -74,6 +90,9 @@ func cmdStudy(args []string, stdout, stderr io.Writer) int {
 	refs := fs.String("refs", "", "reference `SET` for --report: builtin, a built-in set name ("+strings.Join(compare.BuiltinNames(), ", ")+") or a file (default: the study's reference_set, else builtin)")
 	retry := fs.Bool("retry-failed", false, "compute again the items whose stored record failed or did not converge")
 	memFlag := addMemoryFlag(fs)
+	shard := fs.String("shard", "", "run only shard `K/N` of the study (see above)")
+	var reuse multiFlag
+	fs.Var(&reuse, "reuse-from", "also reuse records stored in this archive `DIRECTORY` (read only; repeatable)")
 	pos, code, ok := parseFlags(fs, args)
 	if !ok {
 		return code
@@ -110,13 +129,26 @@ func cmdStudy(args []string, stdout, stderr io.Writer) int {
 	if err != nil {
 		return fail(stderr, exitUsage, "study", err)
 	}
-	r := studyRun{cmd: "study", archive: af.path(), wait: af.waitOrNone(), jobs: *jobs, threads: *threads, memory: memBytes, retry: *retry}
+	if *shard != "" {
+		part, err := study.ParsePart(*shard)
+		if err != nil {
+			return fail(stderr, exitUsage, "study", fmt.Errorf("--%v", err))
+		}
+		if *reportOut != "" {
+			fmt.Fprintln(stderr, "moltrail study: --report covers the whole study; run it after merging the shards, not with --shard")
+			return exitUsage
+		}
+		if plan, err = plan.Shard(part); err != nil {
+			return fail(stderr, exitUsage, "study", err)
+		}
+	}
+	r := studyRun{cmd: "study", archive: af.path(), wait: af.waitOrNone(), jobs: *jobs, threads: *threads, memory: memBytes, retry: *retry, reuse: reuse}
 	r.refs = *refs
 	if r.refs == "" {
 		r.refs = studyRefs(st)
 	}
 	r.reportOut = *reportOut
-	if r.reportOut == "" && st.Report != nil && st.Report.Output != "" {
+	if r.reportOut == "" && st.Report != nil && st.Report.Output != "" && plan.Part == nil {
 		r.reportOut = st.ResolvePath(st.Report.Output)
 	}
 	if st.Report != nil {
@@ -232,7 +264,7 @@ func runStudy(plan *study.Plan, r studyRun, stderr io.Writer) (*study.Summary, i
 			}
 		}
 	}()
-	sum, err := study.Run(ctx, plan, study.Options{Archive: r.archive, Jobs: r.jobs, Threads: r.threads, Wait: r.wait,
+	sum, err := study.Run(ctx, plan, study.Options{Archive: r.archive, ReuseFrom: r.reuse, Jobs: r.jobs, Threads: r.threads, Wait: r.wait,
 		Compute: engineComputer(r.memoryPerCalculation()), RetryFailed: r.retry, Events: pr.event, Abandon: abandon})
 	pr.close()
 	if err != nil {
@@ -355,6 +387,15 @@ func (p *studyProgress) event(e study.Event) {
 		if p.bar != nil {
 			p.bar.Describe(p.describe() + " · stopping")
 		}
+	case study.EventElsewhere:
+		msg := e.Item.Item + ": another process is computing it in this archive; waiting for its record"
+		if p.bar != nil {
+			p.bar.Clear()
+			fmt.Fprintf(p.w, "moltrail %s: %s\n", p.cmd, msg)
+			p.bar.RenderBlank()
+		} else {
+			fmt.Fprintf(p.w, "moltrail %s: %s\n", p.cmd, msg)
+		}
 	}
 }
 
@@ -409,7 +450,7 @@ func itemLine(it *study.ItemResult, n, total int) string {
 // writeStudySummary prints the closing summary.
 func writeStudySummary(w io.Writer, s *study.Summary) {
 	c := s.Counts
-	fmt.Fprintf(w, "study %q: %d items: %d done, %d reused, %d failed, %d not converged", s.Study, c.Total, c.Done, c.Reused, c.Failed, c.NotConverged)
+	fmt.Fprintf(w, "study %q%s: %d items: %d done, %d reused, %d failed, %d not converged", s.Study, shardText(s.Shard), c.Total, c.Done, c.Reused, c.Failed, c.NotConverged)
 	if c.Skipped > 0 {
 		fmt.Fprintf(w, ", %d skipped", c.Skipped)
 	}
@@ -424,6 +465,14 @@ func writeStudySummary(w io.Writer, s *study.Summary) {
 			fmt.Fprintf(w, "  %-13s %s: %s\n", strings.ReplaceAll(it.Category(), "_", " "), it.Item, it.Error)
 		}
 	}
+}
+
+// shardText is " shard K/N" for a shard's run, else "".
+func shardText(p *study.Part) string {
+	if p == nil {
+		return ""
+	}
+	return " shard " + p.String()
 }
 
 func plural(n int) string {
@@ -444,7 +493,7 @@ func roundDur(sec float64) string {
 }
 
 func studyDryRun(plan *study.Plan, r studyRun, asJSON bool, stdout, stderr io.Writer) int {
-	sum, err := study.DryRun(plan, study.Options{Archive: r.archive, Jobs: r.jobs, Threads: r.threads, Wait: r.wait, RetryFailed: r.retry})
+	sum, err := study.DryRun(plan, study.Options{Archive: r.archive, ReuseFrom: r.reuse, Jobs: r.jobs, Threads: r.threads, Wait: r.wait, RetryFailed: r.retry})
 	if err != nil {
 		return fail(stderr, exitFailed, r.cmd, err)
 	}
@@ -481,8 +530,8 @@ func studyDryRun(plan *study.Plan, r studyRun, asJSON bool, stdout, stderr io.Wr
 		t.add(fmt.Sprint(it.Index+1), plan, it.Molecule, it.Level, task, from, rec)
 	}
 	t.write(stdout)
-	fmt.Fprintf(stdout, "study %q: %d items: %d to compute, %d stored already; %d job%s × %d thread%s; archive %s\n",
-		sum.Study, sum.Counts.Total, sum.Counts.ToCompute, sum.Counts.Total-sum.Counts.ToCompute,
+	fmt.Fprintf(stdout, "study %q%s: %d items: %d to compute, %d stored already; %d job%s × %d thread%s; archive %s\n",
+		sum.Study, shardText(sum.Shard), sum.Counts.Total, sum.Counts.ToCompute, sum.Counts.Total-sum.Counts.ToCompute,
 		sum.Jobs, plural(sum.Jobs), sum.ThreadsPerJob, plural(sum.ThreadsPerJob), r.archive)
 	return exitOK
 }
