@@ -147,3 +147,30 @@ func BenchmarkIndexByInputKey(b *testing.B) {
 		}
 	}
 }
+
+// BenchmarkMerge100000 merges an archive of 100,000 records into an empty
+// one: every record schema-checked, decoded, hash-checked and written
+// with its index entries, several records to a transaction.
+func BenchmarkMerge100000(b *testing.B) {
+	const n = 100000
+	src := b.TempDir()
+	s := openRW(b, src)
+	for i := 0; i < n; i += 5000 {
+		if _, err := s.PutMany(fixtures(b, min(5000, n-i), i)); err != nil {
+			b.Fatal(err)
+		}
+	}
+	s.Close()
+	b.ResetTimer()
+	cpu := processCPUSeconds()
+	for i := 0; i < b.N; i++ {
+		dst := openRW(b, b.TempDir())
+		rep, err := dst.Merge([]string{src}, MergeOptions{})
+		if err != nil || rep.Added != n {
+			b.Fatalf("%+v %v", rep, err)
+		}
+		dst.Close()
+	}
+	b.ReportMetric(float64(n)*float64(b.N)/b.Elapsed().Seconds(), "records/s")
+	b.ReportMetric((processCPUSeconds()-cpu)/float64(b.N), "cpu-s/op")
+}

@@ -237,18 +237,10 @@ func (s *Store) unlistedIDs(listed []string) []string {
 		in[id] = true
 	}
 	var out []string
-	s.db.View(func(txn *badger.Txn) error {
-		o := badger.DefaultIteratorOptions
-		o.PrefetchValues = false
-		o.Prefix = []byte(pRecord)
-		it := txn.NewIterator(o)
-		defer it.Close()
-		for it.Rewind(); it.Valid(); it.Next() {
-			if id := string(it.Item().Key()[len(pRecord):]); !in[id] {
-				out = append(out, id)
-			}
+	s.eachID(func(id string) {
+		if !in[id] {
+			out = append(out, id)
 		}
-		return nil
 	})
 	return out
 }

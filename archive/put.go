@@ -393,18 +393,23 @@ func (s *Store) ByInputKey(key string) ([]Summary, error) {
 // Count returns the number of records.
 func (s *Store) Count() (int, error) {
 	n := 0
-	err := s.db.View(func(txn *badger.Txn) error {
+	err := s.eachID(func(string) { n++ })
+	return n, err
+}
+
+// eachID calls f with the id of every stored record, in id order.
+func (s *Store) eachID(f func(id string)) error {
+	return s.db.View(func(txn *badger.Txn) error {
 		o := badger.DefaultIteratorOptions
 		o.PrefetchValues = false
 		o.Prefix = []byte(pRecord)
 		it := txn.NewIterator(o)
 		defer it.Close()
 		for it.Rewind(); it.Valid(); it.Next() {
-			n++
+			f(string(it.Item().Key()[len(pRecord):]))
 		}
 		return nil
 	})
-	return n, err
 }
 
 // ParseSince reads a --since value: a date (2006-01-02), an RFC 3339 time,

@@ -107,6 +107,32 @@ func sameAsOneRun(t *testing.T, got, want string) []*archive.Record {
 	return out
 }
 
+// killMidWrite starts cmd with each commit held open for a while (the
+// test hook), reads its stderr until want has appeared n times (n
+// transactions committed), and kills it with SIGKILL while the next one
+// is staged. It returns what stderr said.
+func killMidWrite(t *testing.T, cmd *exec.Cmd, want string, n int) string {
+	t.Helper()
+	cmd.Env = append(os.Environ(), "MOLTRAIL_TEST_HOLD_COMMIT=400ms")
+	pipe, _ := cmd.StderrPipe()
+	if err := cmd.Start(); err != nil {
+		t.Fatal(err)
+	}
+	buf := make([]byte, 4096)
+	seen := ""
+	for strings.Count(seen, want) < n {
+		k, err := pipe.Read(buf)
+		if err != nil {
+			break
+		}
+		seen += string(buf[:k])
+	}
+	time.Sleep(100 * time.Millisecond)
+	cmd.Process.Signal(syscall.SIGKILL)
+	cmd.Wait()
+	return seen
+}
+
 func findID(m map[string]*archive.Record, id string) *archive.Record {
 	for _, r := range m {
 		if r.ID == id {
@@ -224,24 +250,7 @@ func TestMergeKilledMidwayResumes(t *testing.T) {
 		t.Fatalf("import: %s", r.stderr)
 	}
 	target := filepath.Join(dir, "target")
-	cmd := exec.Command(binary, "merge", "--archive", target, src)
-	cmd.Env = append(os.Environ(), "MOLTRAIL_TEST_HOLD_COMMIT=400ms")
-	pipe, _ := cmd.StderrPipe()
-	if err := cmd.Start(); err != nil {
-		t.Fatal(err)
-	}
-	buf := make([]byte, 4096)
-	seen := ""
-	for !strings.Contains(seen, "records done") {
-		k, err := pipe.Read(buf)
-		if err != nil {
-			break
-		}
-		seen += string(buf[:k])
-	}
-	time.Sleep(100 * time.Millisecond)
-	cmd.Process.Signal(syscall.SIGKILL)
-	cmd.Wait()
+	seen := killMidWrite(t, exec.Command(binary, "merge", "--archive", target, src), "records done", 1)
 	if v := moltrail(t, nil, "verify", "--archive", target); v.code != 0 {
 		t.Fatalf("verify after the kill: exit %d\n%s%s", v.code, v.stdout, v.stderr)
 	}

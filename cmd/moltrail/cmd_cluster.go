@@ -16,7 +16,8 @@ func init() {
 }
 
 const clusterHelp = `Runs a study on a Slurm cluster. From the study file it writes, in the
-study's work directory (--work-dir, default STUDY.cluster beside the file):
+study's work directory (--work-dir, default NAME.cluster beside the study
+file NAME.json):
 
   array.sbatch   an array job, one task per shard of the study; task K runs
                  moltrail study --shard K/N into its own archive
@@ -62,9 +63,9 @@ type clusterJSON struct {
 }
 
 func cmdCluster(args []string, stdout, stderr io.Writer) int {
-	fs := newFlags("cluster", stderr, "[flags] STUDY.json\n\n"+clusterHelp)
+	fs := newFlags("cluster", stderr, "[flags] FILE.json\n\n"+clusterHelp)
 	af := addArchiveFlags(fs)
-	work := fs.String("work-dir", "", "the study's cluster `DIRECTORY` (default: STUDY.cluster beside the study file)")
+	work := fs.String("work-dir", "", "the study's cluster `DIRECTORY` (default: NAME.cluster beside the study file NAME.json)")
 	shards := fs.Int("shards", 0, "split the study into `N` shards, one array task each (default: as before, else one per group of dependent items, at most 10)")
 	var res cluster.Resources
 	fs.StringVar(&res.Partition, "partition", "", "Slurm `PARTITION` for both jobs (default: the cluster's)")

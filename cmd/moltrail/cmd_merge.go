@@ -13,9 +13,9 @@ func init() {
 }
 
 const mergeHelp = `Copies into the target archive (--archive) every record and note of the
-SOURCE archives that it lacks. A SOURCE is an archive directory, or a
-directory of archives such as a study's shards directory (each archive in it
-is a source).
+source archives (the other DIRECTORY arguments) that it lacks. A source is
+an archive directory, or a directory of archives such as a study's shards
+directory (each archive in it is a source).
 
 Every record goes through the checks of import: the record schema, strict
 decoding, its id and input key against its content. A record the target
@@ -35,7 +35,7 @@ merge failed, 2 bad usage or a source that is not an archive.
 `
 
 func cmdMerge(args []string, stdout, stderr io.Writer) int {
-	fs := newFlags("merge", stderr, "--archive TARGET SOURCE... [--json]\n\n"+mergeHelp)
+	fs := newFlags("merge", stderr, "--archive DIRECTORY DIRECTORY… [--json]\n\n"+mergeHelp)
 	af := addArchiveFlags(fs)
 	asJSON := fs.Bool("json", false, "print the summary as JSON")
 	pos, code, ok := parseFlags(fs, args)

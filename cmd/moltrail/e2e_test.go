@@ -448,24 +448,7 @@ func TestCrashSafety(t *testing.T) {
 	big := writeFile(t, dir, "big.jsonl", synthRecords(t, n))
 	prev := len(ids)
 	for k := 1; k <= 2; k++ {
-		imp := exec.Command(binary, "import", "--archive", arch, big)
-		imp.Env = append(os.Environ(), "MOLTRAIL_TEST_HOLD_COMMIT=400ms")
-		pipe, _ := imp.StderrPipe()
-		if err := imp.Start(); err != nil {
-			t.Fatal(err)
-		}
-		buf := make([]byte, 4096)
-		seen := ""
-		for strings.Count(seen, "records written") < k {
-			m, err := pipe.Read(buf)
-			if err != nil {
-				break
-			}
-			seen += string(buf[:m])
-		}
-		time.Sleep(100 * time.Millisecond)
-		imp.Process.Signal(syscall.SIGKILL)
-		imp.Wait()
+		seen := killMidWrite(t, exec.Command(binary, "import", "--archive", arch, big), "records written", k)
 		check(fmt.Sprintf("import killed after %d transaction(s)", k))
 		var sums []archive.Summary
 		json.Unmarshal([]byte(moltrail(t, nil, "list", "--archive", arch, "--json").stdout), &sums)
