@@ -14,7 +14,7 @@ func init() {
 }
 
 func cmdDerive(args []string, stdout, stderr io.Writer) int {
-	fs := newFlags("derive", stderr, "cbs ID ID [ID]  |  composite BASE HIGHER LOWER [HIGHER LOWER …]")
+	fs := newFlags("derive", stderr, "cbs ID ID [ID]  |  composite ID ID ID [ID ID …]   (composite: the base record, then pairs of higher and lower level records)")
 	af := addArchiveFlags(fs)
 	scf := fs.String("scf", "", "cbs: SCF `TREATMENT`: karton-martin (two-point, the default for two records), exponential (three consecutive cardinal numbers, the default for three) or largest (no extrapolation)")
 	alpha := fs.Float64("correlation-exponent", 3, "cbs: α of the two-point X^-α correlation formula (3 is the published one)")
