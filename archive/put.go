@@ -272,7 +272,9 @@ type Filter struct {
 	Tags     []string // "key=value", all must match
 	Since    time.Time
 	// Until: only records started before it (zero: no bound).
-	Until    time.Time
+	Until time.Time
+	// Task: "energy" or "optimize" (no index; read from the summaries).
+	Task     string
 	InputKey string
 }
 
@@ -378,9 +380,23 @@ func (s *Store) matchIDs(txn *badger.Txn, f Filter) ([]string, error) {
 		}
 		return hits[i].id < hits[j].id
 	})
-	ids := make([]string, len(hits))
-	for i, h := range hits {
-		ids[i] = h.id
+	ids := make([]string, 0, len(hits))
+	for _, h := range hits {
+		if f.Task != "" {
+			// No index: the task is read from the summary.
+			it, err := txn.Get([]byte(pSummary + h.id))
+			if err != nil {
+				return nil, fmt.Errorf("record %s: summary missing: %v", short(h.id), err)
+			}
+			var sm Summary
+			if err := it.Value(func(v []byte) error { return json.Unmarshal(v, &sm) }); err != nil {
+				return nil, fmt.Errorf("record %s: summary unreadable: %v", short(h.id), err)
+			}
+			if sm.Task != f.Task {
+				continue
+			}
+		}
+		ids = append(ids, h.id)
 	}
 	return ids, nil
 }

@@ -104,7 +104,7 @@ func cmdDerive(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintf(stdout, "%s\n", b)
 		return exitOK
 	}
-	writeRunSummary(stdout, rec, st.Lookup())
+	writeRunSummary(stdout, rec, st.Lookup(), energyUnits[0])
 	for _, v := range rec.Derivation.Values {
 		fmt.Fprintf(stdout, "%-8s %s %s\n", "", fixed(v.Value, 10), v.Name)
 	}

@@ -12,7 +12,7 @@ import (
 )
 
 func init() {
-	register(Command{Name: "list", Summary: "stored records, one line each (filters: molecule, formula, method, basis, tag, status, since)", Run: cmdList})
+	register(Command{Name: "list", Summary: "stored records, one line each, or a molecule × level overview (filters: molecule, formula, method, basis, task, tag, status, time)", Run: cmdList})
 	register(Command{Name: "show", Summary: "one record, whole (ID or a unique prefix)", Run: cmdShow})
 	register(Command{Name: "verify", Summary: "re-hash every record; names each one that does not match", Run: cmdVerify})
 	register(Command{Name: "export", Summary: "write records (all or filtered) as JSON lines", Run: cmdExport})
@@ -21,8 +21,8 @@ func init() {
 }
 
 type filterFlags struct {
-	molecule, formula, method, basis, status, since, until string
-	tags                                                   multiFlag
+	molecule, formula, method, basis, status, task, since, until string
+	tags                                                         multiFlag
 }
 
 func addFilterFlags(fs *flag.FlagSet) *filterFlags {
@@ -32,6 +32,7 @@ func addFilterFlags(fs *flag.FlagSet) *filterFlags {
 	fs.StringVar(&f.method, "method", "", "the `METHOD`")
 	fs.StringVar(&f.basis, "basis", "", "basis set `NAME`")
 	fs.StringVar(&f.status, "status", "", "the `STATUS`: converged, not_converged or failed")
+	fs.StringVar(&f.task, "task", "", "the `TASK`: energy or optimize")
 	fs.Var(&f.tags, "tag", "records with the tag `KEY=VALUE` (repeatable; all must match)")
 	fs.StringVar(&f.since, "since", "", "records started at or after `TIME`: 2006-01-02, an RFC 3339 time, or a span back from now (36h, 7d)")
 	fs.StringVar(&f.until, "until", "", "records started before `TIME` (same forms as --since)")
@@ -39,7 +40,12 @@ func addFilterFlags(fs *flag.FlagSet) *filterFlags {
 }
 
 func (f *filterFlags) filter() (archive.Filter, error) {
-	out := archive.Filter{Molecule: f.molecule, Formula: f.formula, Method: f.method, Basis: f.basis, Status: f.status, Tags: f.tags}
+	out := archive.Filter{Molecule: f.molecule, Formula: f.formula, Method: f.method, Basis: f.basis, Status: f.status, Task: f.task, Tags: f.tags}
+	switch f.task {
+	case "", "energy", "optimize":
+	default:
+		return out, fmt.Errorf("--task %q is not energy or optimize", f.task)
+	}
 	switch f.status {
 	case "", "converged", "not_converged", "failed":
 	default:
@@ -68,10 +74,12 @@ func (f *filterFlags) filter() (archive.Filter, error) {
 }
 
 func cmdList(args []string, stdout, stderr io.Writer) int {
-	fs := newFlags("list", stderr, "[filters] [--json]")
+	fs := newFlags("list", stderr, "[filters] [--overview] [--energy-unit UNIT] [--json]")
 	af := addArchiveFlags(fs)
 	ff := addFilterFlags(fs)
-	asJSON := fs.Bool("json", false, "print a JSON array of record summaries")
+	asJSON := fs.Bool("json", false, "print a JSON array of record summaries (with --overview: the overview)")
+	overview := fs.Bool("overview", false, "a molecule × level table of what the archive holds instead of one line per record")
+	unitName := addEnergyUnitFlag(fs)
 	pos, code, ok := parseFlags(fs, args)
 	if !ok {
 		return code
@@ -81,6 +89,10 @@ func cmdList(args []string, stdout, stderr io.Writer) int {
 		return exitUsage
 	}
 	f, err := ff.filter()
+	if err != nil {
+		return fail(stderr, exitUsage, "list", err)
+	}
+	unit, err := parseEnergyUnit(*unitName)
 	if err != nil {
 		return fail(stderr, exitUsage, "list", err)
 	}
@@ -97,6 +109,15 @@ func cmdList(args []string, stdout, stderr io.Writer) int {
 	if err != nil {
 		return fail(stderr, exitFailed, "list", err)
 	}
+	if *overview {
+		ov := buildOverview(rows)
+		if *asJSON {
+			printJSON(stdout, ov)
+		} else {
+			writeOverview(stdout, ov)
+		}
+		return exitOK
+	}
 	if *asJSON {
 		printJSON(stdout, rows)
 		return exitOK
@@ -105,21 +126,50 @@ func cmdList(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintln(stdout, "no records match")
 		return exitOK
 	}
-	t := &table{head: []string{"id", "started UTC", "molecule", "formula", "level", "status", "energy/hartree", "tags"},
-		right: []bool{false, false, false, false, false, false, true, false}}
+	t := &table{head: []string{"id", "started UTC", "molecule", "formula", "level", "task", "geometry", "status", "energy/" + unit.header(), "tags"},
+		right: []bool{false, false, false, false, false, false, false, false, true, false}}
 	for _, s := range rows {
-		t.add(s.ID[:12], utc(s.StartUTC), s.Molecule, s.Formula, s.Level+angularMark(s.Angular), s.Status, energyCell(s.Status, s.EnergyHartree), strings.Join(s.Tags, " "))
+		t.add(s.ID[:12], utc(s.StartUTC), s.Molecule, s.Formula, s.Level+angularMark(s.Angular), s.Task, geometryCell(s.Geometry), s.Status,
+			unit.total(s.Status, s.EnergyHartree), strings.Join(s.Tags, " "))
 	}
 	t.write(stdout)
 	fmt.Fprintf(stdout, "%d record(s); ° marks Cartesian d/f functions\n", len(rows))
 	return exitOK
 }
 
-// listRow is one line of `list`: the record's summary and its level label.
+// geometryCell is the geometry column of list: where the record's final
+// geometry comes from.
+func geometryCell(g archive.GeometrySource) string {
+	switch g.Kind {
+	case archive.GeometryOptimised:
+		return "optimised"
+	case archive.GeometryBorrowed:
+		return "from " + g.SourceLevel + " " + shortID(g.Source)
+	case archive.GeometryUnresolved:
+		return "from record " + shortID(g.Source)
+	}
+	if g.FromInput {
+		return "input of " + shortID(g.Source)
+	}
+	return "input"
+}
+
+func shortID(id string) string {
+	if len(id) > 12 {
+		return id[:12]
+	}
+	return id
+}
+
+// listRow is one line of `list`: the record's summary, its level label
+// and where its geometry comes from.
 type listRow struct {
 	archive.Summary
 	// Level is the record's level in the trade's notation (archive.LevelLabel).
-	Level string `json:"level"`
+	Level    string                 `json:"level"`
+	Geometry archive.GeometrySource `json:"geometry"`
+	// JobLevel is the level without the geometry's (archive.JobLevel).
+	JobLevel string `json:"job_level"`
 }
 
 // listRows labels each summary with its record's level; the label needs
@@ -132,7 +182,7 @@ func listRows(st *archive.Store, sums []archive.Summary) ([]listRow, error) {
 		if err != nil {
 			return nil, err
 		}
-		rows = append(rows, listRow{Summary: s, Level: archive.LevelLabel(r, look)})
+		rows = append(rows, listRow{Summary: s, Level: archive.LevelLabel(r, look), Geometry: archive.GeometryOf(r, look), JobLevel: archive.JobLevel(&r.Input)})
 	}
 	return rows, nil
 }
@@ -145,9 +195,10 @@ func angularMark(a string) string {
 }
 
 func cmdShow(args []string, stdout, stderr io.Writer) int {
-	fs := newFlags("show", stderr, "ID [--json]")
+	fs := newFlags("show", stderr, "ID [--energy-unit UNIT] [--json]")
 	af := addArchiveFlags(fs)
 	asJSON := fs.Bool("json", false, "print exactly the stored record")
+	unitName := addEnergyUnitFlag(fs)
 	pos, code, ok := parseFlags(fs, args)
 	if !ok {
 		return code
@@ -155,6 +206,10 @@ func cmdShow(args []string, stdout, stderr io.Writer) int {
 	if len(pos) != 1 {
 		fmt.Fprintln(stderr, "moltrail show: give one record id (or a unique prefix of at least 4 hex digits)")
 		return exitUsage
+	}
+	unit, err := parseEnergyUnit(*unitName)
+	if err != nil {
+		return fail(stderr, exitUsage, "show", err)
 	}
 	st, code, err := af.open(true, stderr)
 	if err != nil {
@@ -174,7 +229,7 @@ func cmdShow(args []string, stdout, stderr io.Writer) int {
 		return exitOK
 	}
 	notes, _ := st.Notes(id)
-	writeRecord(stdout, rec, notes, st.Lookup())
+	writeRecord(stdout, rec, notes, st.Lookup(), unit)
 	if err := rec.Check(); err != nil {
 		fmt.Fprintf(stderr, "moltrail show: warning: record %s does not verify: %v\n", id[:12], err)
 		return exitFailed

@@ -63,6 +63,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 	fs.Var(&tags, "tag", "a tag `KEY=VALUE` stored with the record (repeatable)")
 	force := fs.Bool("force", false, "compute again even if the archive holds this input at this code version")
 	asJSON := fs.Bool("json", false, "print the stored record as JSON")
+	unitName := addEnergyUnitFlag(fs)
 	name := fs.String("name", "", "molecule `NAME` (default: the XYZ comment line)")
 	cart := fs.Bool("cartesian", false, "Cartesian d, f, … functions")
 	sph := fs.Bool("spherical", false, "spherical-harmonic d, f, … functions")
@@ -106,6 +107,10 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 		return exitUsage
 	}
 	tagMap, err := parseTags(tags)
+	if err != nil {
+		return fail(stderr, exitUsage, "run", err)
+	}
+	unit, err := parseEnergyUnit(*unitName)
 	if err != nil {
 		return fail(stderr, exitUsage, "run", err)
 	}
@@ -220,7 +225,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 		}
 		fmt.Fprintf(stdout, "%s\n", b)
 	} else {
-		writeRunSummary(stdout, rec, sourceLookup(af, rec))
+		writeRunSummary(stdout, rec, sourceLookup(af, rec), unit)
 	}
 	if q := rec.Input.Molecule.Charge; q != 0 && rec.Results.DipoleDebye != nil {
 		fmt.Fprintf(stderr, "moltrail run: warning: the molecule has charge %s, so its dipole depends on the origin (here %s); compare dipoles of ions only about the same origin\n", signed(q), rec.Input.OriginLabel())

@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"encoding/json"
 	"fmt"
+	"math"
 	"os"
 	"path/filepath"
 	"regexp"
@@ -11,6 +12,8 @@ import (
 	"testing"
 
 	"moltrail/archive"
+	"moltrail/engine"
+	"moltrail/engine/molecule"
 )
 
 // These tests hold every command to the outside contract through
@@ -663,4 +666,123 @@ func TestPlaceholders(t *testing.T) {
 			}
 		}
 	}
+}
+
+// TestChemistOutputs: show prints the frontier orbitals, the atomic
+// charges and ⟨S²⟩; energies come in the unit asked for; list has task and
+// geometry columns, a --task filter and an overview; geometry writes the
+// final or input structure as XYZ that reads back.
+func TestChemistOutputs(t *testing.T) {
+	f := newContractFixture(t)
+	opt := call("run", "--archive", f.arch, "--basis", "sto-3g", "--task", "optimize", "--json", f.xyz)
+	if opt.code != 0 {
+		t.Fatalf("optimisation: %s", opt.stderr)
+	}
+	optRec := decodeRecord(t, opt.stdout)
+	sp := call("run", "--archive", f.arch, "--basis", "sto-3g", "--method", "uhf", "--geometry-from", optRec.ID[:12], "--json")
+	if sp.code != 0 {
+		t.Fatalf("single point: %s", sp.stderr)
+	}
+	spRec := decodeRecord(t, sp.stdout)
+	rhf := decodeRecord(t, call("show", "--archive", f.arch, "--json", f.ids[0]).stdout)
+
+	t.Run("show", func(t *testing.T) {
+		for _, c := range []struct {
+			id   string
+			want []string
+		}{
+			{f.ids[0], []string{"frontier orbitals      HOMO ", ", LUMO ", ", gap ", " eV)", "orbital energies       ", " | ", "Mulliken", "Löwdin", "H1 ", "H2 "}},
+			{f.ids[1], []string{"<S²>", "(a pure state of multiplicity 1 has 0.0000)", "orbital energies α", "orbital energies β"}},
+		} {
+			out := call("show", "--archive", f.arch, c.id).stdout
+			for _, w := range c.want {
+				if !strings.Contains(out, w) {
+					t.Errorf("show %s lacks %q:\n%s", c.id[:8], w, out)
+				}
+			}
+		}
+	})
+	t.Run("energy units", func(t *testing.T) {
+		for _, c := range []struct {
+			unit   string
+			factor float64 // per hartree: CODATA 2018 (engine/molecule constants)
+			dec    int
+		}{{"hartree", 1, 10}, {"kJ/mol", 2625.4996394799, 7}, {"KCAL/MOL", 627.5094740631, 7}, {"eV", 27.211386245988, 9}} {
+			out := call("show", "--archive", f.arch, "--energy-unit", c.unit, f.ids[0]).stdout
+			want := fmt.Sprintf("  energy                 %.*f ", c.dec, rhf.Results.EnergyHartree*c.factor)
+			if !strings.Contains(out, want) {
+				t.Errorf("--energy-unit %s: show lacks %q", c.unit, want)
+			}
+			if l := call("list", "--archive", f.arch, "--energy-unit", c.unit).stdout; !strings.Contains(l, fmt.Sprintf("%.*f", c.dec, rhf.Results.EnergyHartree*c.factor)) {
+				t.Errorf("--energy-unit %s: list lacks the energy:\n%s", c.unit, l)
+			}
+		}
+		checkRefusal(t, call("show", "--archive", f.arch, "--energy-unit", "rydberg", f.ids[0]), exitUsage, `--energy-unit "rydberg" is not hartree`)
+	})
+	t.Run("list", func(t *testing.T) {
+		out := call("list", "--archive", f.arch).stdout
+		for _, w := range []string{"  task  ", "  geometry  ", "optimize  optimised", "energy    input", "energy    from HF/STO-3G " + optRec.ID[:12], "UHF/STO-3G//HF/STO-3G"} {
+			if !strings.Contains(out, w) {
+				t.Errorf("list lacks %q:\n%s", w, out)
+			}
+		}
+		for task, n := range map[string]int{"energy": 3, "optimize": 1} {
+			var rows []map[string]any
+			json.Unmarshal([]byte(call("list", "--archive", f.arch, "--task", task, "--json").stdout), &rows)
+			if len(rows) != n {
+				t.Errorf("--task %s: %d records, want %d", task, len(rows), n)
+			}
+		}
+		checkRefusal(t, call("list", "--archive", f.arch, "--task", "freq"), exitUsage, `--task "freq" is not energy or optimize`)
+		ov := call("list", "--archive", f.arch, "--overview").stdout
+		for _, w := range []string{"molecule  HF/STO-3G  UHF/STO-3G", "hydrogen  opt sp     sp×2", "4 record(s), 1 molecule(s) × 2 level(s)"} {
+			if !strings.Contains(ov, w) {
+				t.Errorf("overview lacks %q:\n%s", w, ov)
+			}
+		}
+		var js overview
+		if err := json.Unmarshal([]byte(call("list", "--archive", f.arch, "--overview", "--json").stdout), &js); err != nil || len(js.Cells) != 2 || js.Cells[0].Optimised != 1 || js.Cells[1].SinglePoints != 2 {
+			t.Errorf("overview JSON: %+v %v", js, err)
+		}
+	})
+	t.Run("geometry", func(t *testing.T) {
+		d := t.TempDir()
+		for _, c := range []struct {
+			args []string
+			want []engine.GeomAtom
+		}{
+			{[]string{optRec.ID[:12]}, optRec.Results.GeometryAngstrom},
+			{[]string{spRec.ID[:12]}, optRec.Results.GeometryAngstrom},
+			{[]string{optRec.ID[:12], "--input"}, inputAtoms(optRec)},
+			{[]string{optRec.ID[:12], "--out", filepath.Join(d, "final.xyz")}, optRec.Results.GeometryAngstrom},
+		} {
+			r := call(append([]string{"geometry", "--archive", f.arch}, c.args...)...)
+			text := r.stdout
+			if n := len(c.args); n >= 2 && c.args[n-2] == "--out" {
+				b, _ := os.ReadFile(c.args[n-1])
+				text = string(b)
+				if r.stdout != "" || !strings.Contains(r.stderr, "wrote the final geometry of record") {
+					t.Errorf("--out: stdout %q, stderr %q", r.stdout, r.stderr)
+				}
+			}
+			m, err := molecule.ParseXYZ(strings.NewReader(text), "geometry output")
+			if r.code != 0 || err != nil || m.Name != "hydrogen" || len(m.Atoms) != len(c.want) {
+				t.Fatalf("geometry %q: exit %d, %v\n%s", c.args, r.code, err, text)
+			}
+			for i, a := range m.Atoms {
+				for k := 0; k < 3; k++ {
+					if d := a.PosBohr[k]*molecule.BohrAngstrom - c.want[i].XYZ[k]; math.Abs(d) > 1e-10 {
+						t.Errorf("geometry %q: atom %d coordinate %d off by %g Å", c.args, i+1, k, d)
+					}
+				}
+			}
+		}
+		if optRec.Results.GeometryAngstrom[1].XYZ[2] == inputAtoms(optRec)[1].XYZ[2] {
+			t.Error("the optimisation did not move the atoms, so final and input cannot be told apart")
+		}
+		var js geometryJSON
+		if err := json.Unmarshal([]byte(call("geometry", "--archive", f.arch, "--json", spRec.ID).stdout), &js); err != nil || js.Level != "UHF/STO-3G//HF/STO-3G" || js.Which != "final" {
+			t.Errorf("geometry --json: %+v %v", js, err)
+		}
+	})
 }

@@ -9,6 +9,7 @@ import (
 
 	"moltrail/archive"
 	"moltrail/engine"
+	"moltrail/engine/molecule"
 )
 
 // levelLine is a record's level label (archive.LevelLabel, with look to
@@ -26,13 +27,6 @@ func codeLabel(version, revision string) string {
 		return version
 	}
 	return version + " " + revision
-}
-
-func energyCell(status string, e float64) string {
-	if status == engine.StatusFailed {
-		return "—"
-	}
-	return fixed(e, 10)
 }
 
 // fixed formats v with prec decimals; a value that rounds to zero prints
@@ -64,14 +58,20 @@ func signed(n int) string {
 }
 
 // writeRunSummary is the short human report after a run.
-func writeRunSummary(w io.Writer, r *archive.Record, look archive.Lookup) {
+func writeRunSummary(w io.Writer, r *archive.Record, look archive.Lookup, u energyUnit) {
 	fmt.Fprintf(w, "record   %s   %s\n", r.ID, r.Status)
 	fmt.Fprintf(w, "molecule %s  %s  charge %s  multiplicity %d\n", r.Input.Molecule.Name, r.Formula(), signed(r.Input.Molecule.Charge), r.Input.Molecule.Multiplicity)
 	fmt.Fprintf(w, "level    %s  task %s\n", levelLine(r, look), r.Input.Task)
 	if r.Status != engine.StatusFailed {
-		fmt.Fprintf(w, "energy   %s hartree\n", fixed(r.Results.EnergyHartree, 10))
+		fmt.Fprintf(w, "energy   %s\n", u.value(r.Results.EnergyHartree))
 		if r.Results.DipoleDebye != nil {
 			fmt.Fprintf(w, "dipole   %s\n", vec(r.Results.DipoleDebye, "D"))
+		}
+		if f := frontierLine(r.Results.Orbitals, u); f != "" {
+			fmt.Fprintf(w, "orbitals %s\n", f)
+		}
+		if r.Results.S2 != nil {
+			fmt.Fprintf(w, "<S²>     %s\n", s2Text(*r.Results.S2, r.Input.Molecule.Multiplicity))
 		}
 		writeVibrationsLine(w, r.Results.Vibrations)
 	} else {
@@ -81,7 +81,7 @@ func writeRunSummary(w io.Writer, r *archive.Record, look archive.Lookup) {
 }
 
 // writeRecord is the whole record, human readable.
-func writeRecord(w io.Writer, r *archive.Record, notes []archive.Note, look archive.Lookup) {
+func writeRecord(w io.Writer, r *archive.Record, notes []archive.Note, look archive.Lookup, u energyUnit) {
 	sec := func(title string) { fmt.Fprintf(w, "\n» %s\n", title) }
 	kv := func(k, format string, a ...any) { fmt.Fprintf(w, "  %-22s %s\n", k, fmt.Sprintf(format, a...)) }
 	fmt.Fprintf(w, "record %s\n", r.ID)
@@ -128,20 +128,20 @@ func writeRecord(w io.Writer, r *archive.Record, notes []archive.Note, look arch
 		kv("error", "%s", res.Error)
 	}
 	if r.Status != engine.StatusFailed {
-		kv("energy", "%s hartree", fixed(res.EnergyHartree, 10))
-		kv("scf energy", "%s hartree", fixed(res.SCFEnergyHartree, 10))
+		kv("energy", "%s", u.value(res.EnergyHartree))
+		kv("scf energy", "%s", u.value(res.SCFEnergyHartree))
 		if res.CorrelationEnergyHartree != nil {
-			kv("correlation energy", "%s hartree", fixed(*res.CorrelationEnergyHartree, 10))
+			kv("correlation energy", "%s", u.value(*res.CorrelationEnergyHartree))
 		}
 		if c := res.CoupledCluster; c != nil {
 			t := ""
 			if c.TriplesHartree != nil {
-				t = ", (T) " + fixed(*c.TriplesHartree, 10)
+				t = ", (T) " + u.value(*c.TriplesHartree)
 			}
-			kv("coupled cluster", "CCSD correlation %s%s hartree; %d iterations; %d active occupied, %d virtual, %d frozen; T1 diagnostic %.4f",
-				fixed(c.CCSDCorrelationHartree, 10), t, len(c.Iterations), c.ActiveOccupied, c.Virtual, c.FrozenOrbitals, c.T1Diagnostic)
+			kv("coupled cluster", "CCSD correlation %s%s; %d iterations; %d active occupied, %d virtual, %d frozen; T1 diagnostic %.4f",
+				u.value(c.CCSDCorrelationHartree), t, len(c.Iterations), c.ActiveOccupied, c.Virtual, c.FrozenOrbitals, c.T1Diagnostic)
 		}
-		kv("nuclear repulsion", "%s hartree", fixed(res.NuclearRepulsionHartree, 10))
+		kv("nuclear repulsion", "%s", u.value(res.NuclearRepulsionHartree))
 		kv("dipole", "%s", vec(res.DipoleDebye, "D"))
 		if res.SCFDipoleDebye != nil && res.DipoleDebye != nil && *res.SCFDipoleDebye != *res.DipoleDebye {
 			kv("scf dipole", "%s", vec(res.SCFDipoleDebye, "D"))
@@ -152,8 +152,10 @@ func writeRecord(w io.Writer, r *archive.Record, notes []archive.Note, look arch
 		o := res.MultipoleOriginBohr
 		kv("multipole origin", "(%s, %s, %s) bohr — dipoles of charged molecules and quadrupoles depend on it", fixed(o[0], 6), fixed(o[1], 6), fixed(o[2], 6))
 		if res.S2 != nil {
-			kv("<S²>", "%.6f", *res.S2)
+			kv("<S²>", "%s", s2Text(*res.S2, r.Input.Molecule.Multiplicity))
 		}
+		writeOrbitals(w, res.Orbitals, u)
+		writeCharges(w, r)
 		kv("basis functions", "%d   electrons α %d β %d", res.NBasis, res.Electrons[0], res.Electrons[1])
 		if n := len(res.SCFIterations); n > 0 {
 			last := res.SCFIterations[n-1]
@@ -252,4 +254,103 @@ func batchJobText(b *archive.BatchJob) string {
 		s += " on node " + b.Node
 	}
 	return s
+}
+
+// frontierLine is HOMO, LUMO and gap in one line ("" without orbitals);
+// the gap is also given in eV when the unit is another.
+func frontierLine(o *engine.Orbitals, u energyUnit) string {
+	if o == nil || len(o.EnergiesAlphaHartree) == 0 {
+		return ""
+	}
+	s := "HOMO " + u.orbital(o.HOMOHartree)
+	if o.LUMOHartree != nil {
+		s += ", LUMO " + u.orbital(*o.LUMOHartree)
+	}
+	if o.GapHartree != nil {
+		s += ", gap " + u.orbital(*o.GapHartree)
+	}
+	s += " " + u.name
+	if o.GapHartree != nil && u.name != "eV" {
+		s += " (gap " + fixed(*o.GapHartree*molecule.HartreeEV, 3) + " eV)"
+	}
+	return s
+}
+
+// s2Text is ⟨S²⟩ beside the value S(S+1) of a pure spin state.
+func s2Text(s2 float64, mult int) string {
+	sp := float64(mult-1) / 2
+	return fmt.Sprintf("%.6f  (a pure state of multiplicity %d has %.4f)", s2, mult, sp*(sp+1))
+}
+
+// orbitalsShown is how many occupied and empty orbitals show lists
+// around the frontier.
+const orbitalsShown = 8
+
+// writeOrbitals prints the frontier orbitals and, per spin, the orbital
+// energies nearest to them (occupied | empty).
+func writeOrbitals(w io.Writer, o *engine.Orbitals, u energyUnit) {
+	line := frontierLine(o, u)
+	if line == "" {
+		return
+	}
+	fmt.Fprintf(w, "  %-22s %s\n", "frontier orbitals", line)
+	spin := func(name string, e, occ []float64) {
+		if len(e) == 0 {
+			return
+		}
+		nocc := 0
+		for i := range e {
+			if i < len(occ) && occ[i] > 0.5 {
+				nocc = i + 1
+			}
+		}
+		lo, hi := max(0, nocc-orbitalsShown), min(len(e), nocc+orbitalsShown)
+		var b strings.Builder
+		if lo > 0 {
+			fmt.Fprintf(&b, "(%d lower) ", lo)
+		}
+		for i := lo; i < hi; i++ {
+			if i == nocc {
+				b.WriteString("| ")
+			}
+			b.WriteString(u.orbital(e[i]) + " ")
+		}
+		if hi == nocc {
+			b.WriteString("| ")
+		}
+		if hi < len(e) {
+			fmt.Fprintf(&b, "(%d higher) ", len(e)-hi)
+		}
+		b.WriteString(u.name)
+		fmt.Fprintf(w, "  %-22s %s\n", name, b.String())
+	}
+	if len(o.EnergiesBetaHartree) > 0 {
+		spin("orbital energies α", o.EnergiesAlphaHartree, o.OccupationsAlpha)
+		spin("orbital energies β", o.EnergiesBetaHartree, o.OccupationsBeta)
+	} else {
+		spin("orbital energies", o.EnergiesAlphaHartree, o.OccupationsAlpha)
+	}
+	fmt.Fprintf(w, "  %-22s %s\n", "", "occupied | empty; orbital energies are of the SCF (HF or Kohn–Sham) orbitals")
+}
+
+// writeCharges prints the Mulliken and Löwdin charges of each density
+// that has them (they depend strongly on the basis set).
+func writeCharges(w io.Writer, r *archive.Record) {
+	for _, p := range []*engine.Properties{r.Results.SCFProperties, r.Results.LevelProperties} {
+		if p == nil || (len(p.MullikenCharges) == 0 && len(p.LowdinCharges) == 0) {
+			continue
+		}
+		fmt.Fprintf(w, "  atomic charges (e), %s density; basis-set dependent, not observables\n", p.Density)
+		fmt.Fprintf(w, "    %-8s %10s %10s\n", "atom", "Mulliken", "Löwdin")
+		for i, a := range r.Input.Molecule.Atoms {
+			fmt.Fprintf(w, "    %-8s %10s %10s\n", fmt.Sprintf("%s%d", a.Symbol, i+1), chargeAt(p.MullikenCharges, i), chargeAt(p.LowdinCharges, i))
+		}
+	}
+}
+
+func chargeAt(q []float64, i int) string {
+	if i >= len(q) {
+		return "—"
+	}
+	return fixed(q[i], 4)
 }
