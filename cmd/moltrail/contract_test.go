@@ -332,6 +332,8 @@ func TestJSONOutputIsOneValue(t *testing.T) {
 		{"run", "--archive", f.arch, "--basis", "sto-3g", f.xyz},
 		{"list", "--archive", f.arch},
 		{"list", "--archive", f.arch, "--molecule", "nothing"},
+		{"list", "--archive", f.arch, "--overview"},
+		{"geometry", "--archive", f.arch, f.ids[0][:8]},
 		{"show", "--archive", f.arch, f.ids[0][:8]},
 		{"verify", "--archive", f.arch},
 		{"export", "--archive", f.arch, "--out", out},
