@@ -600,14 +600,11 @@ func TestOneJobsDefault(t *testing.T) {
 	}
 }
 
-// placeholderWords are the value words help may use besides the flags'
-// own placeholders: a file is FILE (FILE.xyz names its kind), a record ID.
-var placeholderWords = map[string]bool{"ID": true, "FILE": true, "VALUE": true, "NAME": true, "TEXT": true}
-
 var helpFlagLine = regexp.MustCompile(`^  --([a-z0-9-]+)(?: (\S+))?(?:  |$)`)
 
 // TestPlaceholders: a flag's value has one placeholder word in every
-// command's help, and the synopsis uses the same words as the flag list.
+// command's help, and the synopsis gives each flag the word of the flag
+// list.
 func TestPlaceholders(t *testing.T) {
 	seen := map[string]string{} // flag → placeholder
 	where := map[string]string{}
@@ -637,33 +634,18 @@ func TestPlaceholders(t *testing.T) {
 		}
 		toks := strings.FieldsFunc(synopsis, func(r rune) bool { return strings.ContainsRune(" []|", r) })
 		for i, tok := range toks {
-			word := strings.TrimSuffix(tok, "…")
-			if b, _, ok := strings.Cut(word, "."); ok && b == strings.ToUpper(b) {
-				word = b
-			}
-			if flagName, ok := strings.CutPrefix(tok, "--"); ok {
-				p, known := own[flagName]
-				if !known {
-					t.Errorf("%s: the synopsis names --%s, which the command does not take", name, flagName)
-				}
-				if i+1 < len(toks) && toks[i+1] == strings.ToUpper(toks[i+1]) && !strings.HasPrefix(toks[i+1], "-") {
-					next, _, _ := strings.Cut(toks[i+1], ".")
-					if next != p {
-						t.Errorf("%s: the synopsis says --%s %s, the flag list --%s %s", name, flagName, toks[i+1], flagName, p)
-					}
-				}
+			flagName, ok := strings.CutPrefix(tok, "--")
+			if !ok {
 				continue
 			}
-			if word != strings.ToUpper(word) || word == "" {
-				continue // literal words: filters, flags
+			p, known := own[flagName]
+			if !known {
+				t.Errorf("%s: the synopsis names --%s, which the command does not take", name, flagName)
 			}
-			if !placeholderWords[word] {
-				found := false
-				for _, p := range own {
-					found = found || p == word
-				}
-				if !found {
-					t.Errorf("%s: the synopsis uses the word %s, which is neither a flag's placeholder nor one of the common ones", name, tok)
+			// A value word in capitals (FILE.pdf counts as FILE) must be the flag's.
+			if i+1 < len(toks) && toks[i+1] == strings.ToUpper(toks[i+1]) && !strings.HasPrefix(toks[i+1], "-") {
+				if next, _, _ := strings.Cut(toks[i+1], "."); next != p {
+					t.Errorf("%s: the synopsis says --%s %s, the flag list --%s %s", name, flagName, toks[i+1], flagName, p)
 				}
 			}
 		}
