@@ -311,11 +311,25 @@ func Compare(set *RefSet, records []*archive.Record, opt Options) (*Table, error
 	cands := map[slot][]*recMol{}
 	levels := map[string]Level{}
 	seenRec := map[string]bool{}
+	refRec := map[string]string{} // record id → the entry it is the source of
+	for _, e := range set.Entries {
+		for _, id := range e.Records {
+			if _, ok := refRec[id]; !ok {
+				t.ReferenceRecords = append(t.ReferenceRecords, id)
+			}
+			refRec[id] = e.ID
+		}
+	}
 	for _, r := range records {
 		if r == nil || seenRec[r.ID] {
 			continue
 		}
 		seenRec[r.ID] = true
+		if eid, ok := refRec[r.ID]; ok {
+			t.Excluded = append(t.Excluded, Excluded{RecordID: r.ID, Molecule: r.Input.Molecule.Name, Formula: r.Formula(), Level: archive.LevelLabel(r, look), Status: r.Status,
+				Reason: "the source of reference entry " + eid + ": not compared with its own value"})
+			continue
+		}
 		named := byName[normName(r.Input.Molecule.Name)]
 		if len(named) == 0 {
 			continue

@@ -106,6 +106,10 @@ type Entry struct {
 	// FromMemory marks a value recalled from the cited source, not transcribed.
 	FromMemory bool   `json:"from_memory"`
 	Note       string `json:"note,omitempty"`
+	// Records are the ids of the archived records a theoretical value was
+	// taken from (entries built from the archive); such records are cited
+	// with the results and never compared with their own value.
+	Records []string `json:"records,omitempty"`
 }
 
 // unitInfo converts one accepted unit to the natural unit of its dimension.

@@ -33,6 +33,9 @@ type Table struct {
 	Notes []string `json:"notes"`
 	// Settings records how the table was made (thresholds, bootstrap size and seed).
 	Settings Settings `json:"settings"`
+	// ReferenceRecords are the archived records reference values were
+	// taken from (Entry.Records), in entry order: cited, never compared.
+	ReferenceRecords []string `json:"reference_records,omitempty"`
 }
 
 // Flagged counts the deviations that carry at least one caution.

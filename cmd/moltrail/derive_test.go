@@ -61,6 +61,22 @@ func TestDeriveCBSEndToEnd(t *testing.T) {
 	if r.code != 0 || json.Unmarshal([]byte(r.stdout), &rep) != nil || rep.Verdict != "reproduced" || len(rep.Inputs) != 2 {
 		t.Errorf("reproduce: %d %s %s", r.code, r.stdout, r.stderr)
 	}
+	// A reference set from the derived record; compare cites it and its inputs.
+	refs := filepath.Join(dir, "refs.json")
+	r = moltrail(t, nil, "refset", "--archive", arch, "--out", refs, "--name", "h2 cbs", "--record", d.ID[:12])
+	if r.code != 0 || !strings.Contains(r.stdout, d.ID) {
+		t.Fatalf("refset: %d %s %s", r.code, r.stdout, r.stderr)
+	}
+	r = moltrail(t, nil, "compare", "--archive", arch, "--refs", refs, "--json")
+	var tab struct {
+		ReferenceRecords []string `json:"reference_records"`
+	}
+	if r.code != 0 || json.Unmarshal([]byte(r.stdout), &tab) != nil || len(tab.ReferenceRecords) != 1 || tab.ReferenceRecords[0] != d.ID {
+		t.Errorf("compare: %d %s %s", r.code, r.stdout, r.stderr)
+	}
+	if r := moltrail(t, nil, "refset", "--archive", arch, "--out", refs, "--name", "x", "--record", ids[0]); r.code != 2 || !strings.Contains(r.stderr, "state one") {
+		t.Errorf("record without uncertainty: %d %s", r.code, r.stderr)
+	}
 	if r := moltrail(t, nil, "derive", "--archive", arch, "cbs", ids[0]); r.code != 2 || !strings.Contains(r.stderr, "two or three") {
 		t.Errorf("one record: %d %s", r.code, r.stderr)
 	}

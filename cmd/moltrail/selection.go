@@ -97,10 +97,55 @@ func compareArchive(af *archiveFlags, c *comparison, stderr io.Writer) (tab *com
 	if recs, err = selectRecordsForComparison(st, c.set, c.filter); err != nil {
 		return nil, nil, exitFailed, err
 	}
+	if recs, err = withReferenceRecords(st, c.set, recs); err != nil {
+		return nil, nil, exitUsage, err
+	}
 	if tab, err = compare.Compare(c.set, recs, c.options); err != nil {
 		return nil, nil, exitUsage, err
 	}
 	return tab, recs, 0, nil
+}
+
+// withReferenceRecords adds the archived records the set's theoretical
+// entries were taken from, so that the comparison and the report cite them.
+func withReferenceRecords(st *archive.Store, set *compare.RefSet, recs []*archive.Record) ([]*archive.Record, error) {
+	have := map[string]bool{}
+	for _, r := range recs {
+		have[r.ID] = true
+	}
+	var add func(entry, id string) error
+	add = func(entry, id string) error {
+		if have[id] {
+			return nil
+		}
+		r, _, err := st.Get(id)
+		if err != nil {
+			return fmt.Errorf("reference entry %s: record %s is not in this archive: %v", entry, shortPrefix(id), err)
+		}
+		have[id] = true
+		recs = append(recs, r)
+		for _, in := range archive.DerivedInputsOf(r) {
+			if err := add(entry, in); err != nil {
+				return err
+			}
+		}
+		return nil
+	}
+	for _, e := range set.Entries {
+		for _, id := range e.Records {
+			if err := add(e.ID, id); err != nil {
+				return nil, err
+			}
+		}
+	}
+	return recs, nil
+}
+
+func shortPrefix(id string) string {
+	if len(id) > 12 {
+		return id[:12]
+	}
+	return id
 }
 
 // recordsUsed returns, once each and in the order of recs, the records a
@@ -113,6 +158,26 @@ func recordsUsed(tab *compare.Table, recs []*archive.Record) []archive.Record {
 	}
 	for _, d := range tab.Deviations {
 		used[d.RecordID] = true
+	}
+	for _, id := range tab.ReferenceRecords {
+		used[id] = true
+	}
+	// The inputs of derived records used are cited with them.
+	byID := map[string]*archive.Record{}
+	for _, r := range recs {
+		byID[r.ID] = r
+	}
+	for changed := true; changed; {
+		changed = false
+		for id := range used {
+			if r := byID[id]; r != nil {
+				for _, in := range archive.DerivedInputsOf(r) {
+					if !used[in] {
+						used[in], changed = true, true
+					}
+				}
+			}
+		}
 	}
 	var out []archive.Record
 	for _, r := range recs {
