@@ -17,7 +17,7 @@ func init() {
 }
 
 func cmdRefset(args []string, stdout, stderr io.Writer) int {
-	fs := newFlags("refset", stderr, "--out FILE --name NAME [--level LEVEL] [--record ID]… [--reaction 'NAME = C ID + C ID …']…")
+	fs := newFlags("refset", stderr, "--out FILE --name NAME [--level LABEL] [--record ID]… [--reaction ENTRY]…")
 	af := addArchiveFlags(fs)
 	out := fs.String("out", "", "reference-set `FILE` to write (JSON, schemas/refset.schema.json)")
 	name := fs.String("name", "", "the set's `NAME`")
