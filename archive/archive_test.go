@@ -288,11 +288,24 @@ func TestStorePutGetList(t *testing.T) {
 func TestSameBuildReuse(t *testing.T) {
 	dir := t.TempDir()
 	s := openRW(t, dir)
-	r := fixture(t, 1, "hf", "sto-3g", nil, t0)
+	r := signed(t, fixture(t, 1, "hf", "sto-3g", nil, t0))
 	s.Put(r)
 	found, err := s.FindSameBuild(r.InputKey, r.Code)
 	if err != nil || found == nil || found.ID != r.ID {
 		t.Fatalf("same build not found: %v", err)
+	}
+	// Newer records of the same input that must not stand in for a
+	// calculation: unsigned, signed by a key the archive does not trust,
+	// dated in the future.
+	unsigned := fixture(t, 1, "hf", "sto-3g", nil, t0.Add(time.Hour))
+	stranger := fixture(t, 1, "hf", "sto-3g", nil, t0.Add(2*time.Hour))
+	if err := strangerKey(t).Sign(stranger); err != nil {
+		t.Fatal(err)
+	}
+	future := signed(t, fixture(t, 1, "hf", "sto-3g", nil, time.Now().Add(24*time.Hour)))
+	s.PutMany([]*Record{unsigned, stranger, future})
+	if found, _ := s.FindSameBuild(r.InputKey, r.Code); found == nil || found.ID != r.ID {
+		t.Fatalf("reuse picked %v instead of the signed record of the past", found)
 	}
 	other := r.Code
 	other.Revision = "def"
@@ -420,11 +433,11 @@ func TestExportImportRoundTrip(t *testing.T) {
 
 	dst := openRW(t, t.TempDir())
 	defer dst.Close()
-	rep, err := dst.Import(bytes.NewReader(half.Bytes()), "half.jsonl")
+	rep, err := dst.Import(bytes.NewReader(half.Bytes()), "half.jsonl", ImportPolicy{})
 	if err != nil || rep.Imported != 6 {
 		t.Fatalf("import half: %+v %v", rep, err)
 	}
-	rep, err = dst.Import(bytes.NewReader(buf.Bytes()), "all.jsonl")
+	rep, err = dst.Import(bytes.NewReader(buf.Bytes()), "all.jsonl", ImportPolicy{})
 	if err != nil || rep.Imported != 6 || rep.Skipped != 6 || len(rep.Refused) != 0 {
 		t.Fatalf("import all: %+v %v", rep, err)
 	}
@@ -452,12 +465,17 @@ func TestImportRefusesAndRejects(t *testing.T) {
 
 	dst := openRW(t, t.TempDir())
 	defer dst.Close()
-	rep, err := dst.Import(strings.NewReader(strings.Join(tampered, "\n")+"\n"), "t.jsonl")
-	if err != nil {
-		t.Fatal(err)
+	// All or nothing by default: the tampered line is named, nothing is stored.
+	rep, err := dst.Import(strings.NewReader(strings.Join(tampered, "\n")+"\n"), "t.jsonl", ImportPolicy{})
+	if !errors.Is(err, ErrRefused) || rep.Imported != 0 || len(rep.Refused) != 1 || rep.Refused[0].Line != 2 || !strings.Contains(rep.Refused[0].Reason, "t.jsonl:2") {
+		t.Fatalf("tampered line not refused by line, or something stored: %+v %v", rep, err)
 	}
-	if rep.Imported != 2 || len(rep.Refused) != 1 || rep.Refused[0].Line != 2 || !strings.Contains(rep.Refused[0].Reason, "t.jsonl:2") {
-		t.Fatalf("tampered line not refused by line: %+v", rep)
+	if n, _ := dst.Count(); n != 0 {
+		t.Fatalf("a refused batch stored %d record(s)", n)
+	}
+	rep, err = dst.Import(strings.NewReader(strings.Join(tampered, "\n")+"\n"), "t.jsonl", ImportPolicy{Partial: true})
+	if err != nil || rep.Imported != 2 || len(rep.Refused) != 1 {
+		t.Fatalf("partial import: %+v %v", rep, err)
 	}
 	bad := map[string]string{
 		"malformed": lines[0] + "\n{not json\n",
@@ -467,7 +485,7 @@ func TestImportRefusesAndRejects(t *testing.T) {
 	}
 	for name, text := range bad {
 		before, _ := dst.Count()
-		_, err := dst.Import(strings.NewReader(text), name+".jsonl")
+		_, err := dst.Import(strings.NewReader(text), name+".jsonl", ImportPolicy{})
 		if !errors.Is(err, ErrBadFile) || !strings.Contains(err.Error(), name+".jsonl:2") {
 			t.Errorf("%s: want a bad-file error naming line 2, got %v", name, err)
 		}

@@ -63,7 +63,7 @@ func BenchmarkImport(b *testing.B) {
 	s := openRW(b, b.TempDir())
 	defer s.Close()
 	b.ResetTimer()
-	rep, err := s.Import(&buf, "bench.jsonl")
+	rep, err := s.Import(&buf, "bench.jsonl", ImportPolicy{})
 	if err != nil || rep.Imported != b.N {
 		b.Fatal(rep, err)
 	}

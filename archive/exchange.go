@@ -11,6 +11,7 @@ import (
 	badger "github.com/dgraph-io/badger/v4"
 	"github.com/santhosh-tekuri/jsonschema/v6"
 
+	"moltrail/internal/readfile"
 	"moltrail/schemas"
 )
 
@@ -48,7 +49,7 @@ func (s *Store) Export(w io.Writer, f Filter) (int, error) {
 		for _, id := range ids {
 			it, err := txn.Get([]byte(pRecord + id))
 			if err != nil {
-				return fmt.Errorf("record %s: %v", short(id), err)
+				return s.damagedRecord(id)
 			}
 			if err := it.Value(func(v []byte) error {
 				if _, err := bw.Write(v); err != nil {
@@ -87,6 +88,29 @@ type ImportReport struct {
 // ErrBadFile marks an import file that is not valid JSON lines of records.
 var ErrBadFile = errors.New("import file is not a valid record file")
 
+// MaxLineBytes bounds one line of a record file (a record carrying a
+// basis file of the largest size accepted stays well below it).
+const MaxLineBytes = 64 << 20
+
+var errLineTooLong = errors.New("line too long")
+
+// readLine reads up to and including the next newline, refusing lines
+// longer than max; at the end of the input it returns what is left and
+// io.EOF.
+func readLine(br *bufio.Reader, max int) ([]byte, error) {
+	var line []byte
+	for {
+		frag, err := br.ReadSlice('\n')
+		if len(line)+len(frag) > max {
+			return nil, errLineTooLong
+		}
+		line = append(line, frag...)
+		if err != bufio.ErrBufferFull {
+			return line, err
+		}
+	}
+}
+
 // ReadRecords parses a JSON-lines record file: every non-empty line must be
 // one JSON document valid against the record schema and decodable as a
 // Record. Any such failure (including a truncated last line) is an error
@@ -98,7 +122,10 @@ func ReadRecords(r io.Reader, source string) ([]*Record, []int, error) {
 	var lines []int
 	ln := 0
 	for {
-		line, err := br.ReadBytes('\n')
+		line, err := readLine(br, MaxLineBytes)
+		if errors.Is(err, errLineTooLong) {
+			return nil, nil, fmt.Errorf("%w: %s:%d: the line is longer than %s, more than any record needs", ErrBadFile, source, ln+1, readfile.Size(MaxLineBytes))
+		}
 		if len(line) > 0 {
 			ln++
 			complete := line[len(line)-1] == '\n'
@@ -126,44 +153,4 @@ func ReadRecords(r io.Reader, source string) ([]*Record, []int, error) {
 		}
 	}
 	return recs, lines, nil
-}
-
-// Import reads a JSON-lines record file into the archive. A file that is
-// not valid (see ReadRecords) changes nothing. Records whose id or input
-// key does not match their content are refused, each named with its line;
-// records already present are skipped (never overwritten); the rest are
-// stored.
-func (s *Store) Import(r io.Reader, source string) (ImportReport, error) {
-	recs, lines, err := ReadRecords(r, source)
-	if err != nil {
-		return ImportReport{Source: source, Refused: []Refusal{}}, err
-	}
-	return s.ImportRecords(recs, lines, source, nil)
-}
-
-// ImportRecords stores records read by ReadRecords (lines are their line
-// numbers in source): hash mismatches are refused, present ids skipped.
-// progress (may be nil) is called after each committed transaction.
-func (s *Store) ImportRecords(recs []*Record, lines []int, source string, progress func(done, total int)) (ImportReport, error) {
-	rep := ImportReport{Source: source, Refused: []Refusal{}, Lines: len(recs)}
-	var good []*Record
-	for i, rec := range recs {
-		if err := rec.Check(); err != nil {
-			rep.Refused = append(rep.Refused, Refusal{Line: lines[i], ID: rec.ID, Reason: fmt.Sprintf("%s:%d: record %s… refused: %v", source, lines[i], short(rec.ID), err)})
-			continue
-		}
-		good = append(good, rec)
-	}
-	n, conflicts, err := s.putMany(good, progress)
-	rep.Imported = n
-	rep.Skipped = len(good) - n - len(conflicts)
-	for _, id := range conflicts {
-		for i, rec := range recs {
-			if rec.ID == id {
-				rep.Refused = append(rep.Refused, Refusal{Line: lines[i], ID: id, Reason: fmt.Sprintf("%s:%d: record %s… refused: %s", source, lines[i], short(id), conflictReason)})
-				break
-			}
-		}
-	}
-	return rep, err
 }

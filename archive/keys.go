@@ -12,6 +12,8 @@ import (
 // free-text index value from what follows it.
 //
 //	m/layout                                  → LayoutVersion
+//	m/trust/<key fingerprint>                 → a TrustEntry (JSON): a key
+//	                                                the archive trusts
 //	r/<id>                                    → the record's stored bytes
 //	s/<id>                                    → its Summary (JSON), for listings
 //	k/<input_key>/<ts><id>                    → ∅   look-up by input key
@@ -24,6 +26,8 @@ import (
 // values: molecule name, method and basis lower-cased; formula as the Hill
 // formula; tag as "key=value"; status as stored.
 var keyLayout = []byte("m/layout")
+
+const pTrust = "m/trust/"
 
 const (
 	pRecord  = "r/"

@@ -44,6 +44,9 @@ type MergeOptions struct {
 	// Progress (may be nil) is called after each committed transaction
 	// with the source and how many of its records are done.
 	Progress func(source string, done, total int)
+	// TrustedOnly refuses records that are unsigned or signed by a key
+	// the target does not trust (see ImportPolicy).
+	TrustedOnly bool
 }
 
 // mergeBatch is how many records a merge reads, checks and writes at a
@@ -106,7 +109,9 @@ func isArchiveDir(d string) bool {
 
 // Merge copies into s every record and note of the source archives that
 // s lacks. Each record goes through the same checks as Import (schema,
-// strict decoding, id and input key against the content); a record whose
+// strict decoding, then Vet: id and input key against the content, the
+// signature, the job as run would check it, lineage targets in s or in a
+// source; see ImportPolicy, with Partial set); a record whose
 // id s already holds with the same bytes counts as present, with other
 // bytes it is refused and named, and s keeps its own. Records are never
 // overwritten, so merging again adds nothing. Lineage travels inside the
@@ -127,8 +132,18 @@ func (s *Store) Merge(sources []string, o MergeOptions) (MergeReport, error) {
 			return rep, fmt.Errorf("merge source %s is the target archive itself", src)
 		}
 	}
+	// Lineage may point at a record of another source of the same merge.
+	incoming := map[string]bool{}
 	for _, src := range sources {
-		ms, refused, err := s.mergeOne(src, o)
+		st, err := Open(src, OpenOptions{ReadOnly: true, Wait: o.Wait})
+		if err != nil {
+			return rep, fmt.Errorf("merge source: %w", err)
+		}
+		st.eachID(func(id string) { incoming[id] = true })
+		st.Close()
+	}
+	for _, src := range sources {
+		ms, refused, err := s.mergeOne(src, o, incoming)
 		rep.Sources = append(rep.Sources, ms)
 		rep.Records += ms.Records
 		rep.Added += ms.Added
@@ -155,7 +170,7 @@ func sameDir(a, b string) (bool, error) {
 	return os.SameFile(fa, fb), nil
 }
 
-func (s *Store) mergeOne(dir string, o MergeOptions) (MergeSource, []Refusal, error) {
+func (s *Store) mergeOne(dir string, o MergeOptions, incoming map[string]bool) (MergeSource, []Refusal, error) {
 	ms := MergeSource{Dir: dir}
 	var refused []Refusal
 	src, err := Open(dir, OpenOptions{ReadOnly: true, Wait: o.Wait})
@@ -210,7 +225,8 @@ func (s *Store) mergeOne(dir string, o MergeOptions) (MergeSource, []Refusal, er
 			return ms, refused, fmt.Errorf("merge source %s: %v", dir, err)
 		}
 		before := start
-		ir, err := s.ImportRecords(recs, pos, dir, func(done, total int) {
+		b := Batch{Source: dir, Records: recs, Lines: pos, Elsewhere: func(id string) bool { return incoming[id] }}
+		ir, err := s.ImportRecords(b, ImportPolicy{Partial: true, TrustedOnly: o.TrustedOnly}, func(done, total int) {
 			if o.Progress != nil {
 				o.Progress(dir, before+done, len(ids))
 			}

@@ -3,6 +3,7 @@ package archive
 import (
 	"bytes"
 	"encoding/json"
+	"errors"
 	"fmt"
 	"os"
 	"os/exec"
@@ -198,8 +199,8 @@ func TestImportRefusesOtherBytesUnderStoredID(t *testing.T) {
 	raw, _ := other.Encode()
 	s.db.Update(func(txn *badger.Txn) error { return txn.Set([]byte(pRecord+r.ID), raw) })
 	line, _ := r.Encode()
-	rep, err := s.Import(bytes.NewReader(append(line, '\n')), "one.jsonl")
-	if err != nil || len(rep.Refused) != 1 || rep.Skipped != 0 || !strings.Contains(rep.Refused[0].Reason, "one.jsonl:1") {
+	rep, err := s.Import(bytes.NewReader(append(line, '\n')), "one.jsonl", ImportPolicy{})
+	if !errors.Is(err, ErrRefused) || len(rep.Refused) != 1 || rep.Skipped != 0 || !strings.Contains(rep.Refused[0].Reason, "one.jsonl:1") {
 		t.Fatalf("import over other bytes: %+v %v", rep, err)
 	}
 	if _, err := s.PutMany([]*Record{r}); err == nil || !strings.Contains(err.Error(), short(r.ID)) {

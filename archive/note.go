@@ -64,6 +64,12 @@ func (s *Store) AddNote(recordID, text string, now time.Time) (*Note, error) {
 	if text == "" {
 		return nil, fmt.Errorf("the note text is empty")
 	}
+	if err := checkText("the note text", text); err != nil {
+		return nil, err
+	}
+	if len(text) > MaxNoteBytes {
+		return nil, fmt.Errorf("the note text is %d bytes long; a note is at most %d bytes", len(text), MaxNoteBytes)
+	}
 	n := &Note{RecordID: recordID, TimeUTC: now.UTC().Format(time.RFC3339Nano), Text: text, Format: NoteFormat}
 	n.ID = n.computeID()
 	b, err := json.Marshal(n)
@@ -78,6 +84,9 @@ func (s *Store) AddNote(recordID, text string, now time.Time) (*Note, error) {
 		}
 		return txn.Set([]byte(pNote+recordID+"/"+tsHex(now)+n.ID), b)
 	})
+	if isNoSpace(err) {
+		return nil, s.writeErr(err)
+	}
 	if err != nil {
 		return nil, err
 	}

@@ -1,7 +1,6 @@
 package archive
 
 import (
-	"bytes"
 	"encoding/json"
 	"errors"
 	"fmt"
@@ -150,7 +149,7 @@ func (s *Store) putMany(recs []*Record, progress func(done, total int)) (int, []
 			st := all[n]
 			if item, err := txn.Get([]byte(pRecord + st.id)); err == nil {
 				same := false
-				if err := item.Value(func(v []byte) error { same = bytes.Equal(v, st.entries[0][1]); return nil }); err != nil {
+				if err := item.Value(func(v []byte) error { same = sameRecord(v, st.entries[0][1]); return nil }); err != nil {
 					txn.Discard()
 					return added, conflicts, err
 				}
@@ -194,7 +193,7 @@ func (s *Store) putMany(recs []*Record, progress func(done, total int)) (int, []
 			time.Sleep(testHoldCommit)
 		}
 		if err := txn.Commit(); err != nil {
-			return added, conflicts, fmt.Errorf("archive %s: write failed: %v", s.dir, err)
+			return added, conflicts, s.writeErr(err)
 		}
 		added += fresh
 		all = all[n:]
@@ -217,6 +216,9 @@ func (s *Store) Get(id string) (*Record, []byte, error) {
 		return err
 	})
 	if errors.Is(err, badger.ErrKeyNotFound) {
+		if s.listedOnly(id) {
+			return nil, nil, s.damagedRecord(id)
+		}
 		return nil, nil, fmt.Errorf("no record %s in archive %s", short(id), s.dir)
 	}
 	if err != nil {
@@ -252,6 +254,9 @@ func (s *Store) Resolve(prefix string) (string, error) {
 	}
 	switch len(found) {
 	case 0:
+		if s.listedOnly(p) {
+			return "", s.damagedRecord(p)
+		}
 		return "", fmt.Errorf("no record id starts with %q in archive %s", p, s.dir)
 	case 1:
 		return found[0], nil
@@ -327,11 +332,11 @@ func (s *Store) List(f Filter) ([]Summary, error) {
 		for _, id := range ids {
 			it, err := txn.Get([]byte(pSummary + id))
 			if err != nil {
-				return fmt.Errorf("record %s: summary missing: %v", short(id), err)
+				return s.damagedRecord(id)
 			}
 			var sm Summary
 			if err := it.Value(func(v []byte) error { return json.Unmarshal(v, &sm) }); err != nil {
-				return fmt.Errorf("record %s: summary unreadable: %v", short(id), err)
+				return s.damagedRecord(id)
 			}
 			out = append(out, sm)
 		}
@@ -452,4 +457,27 @@ func ParseTimeFlag(flag, v string, now time.Time) (time.Time, error) {
 		return now.Add(-d), nil
 	}
 	return time.Time{}, fmt.Errorf("--%s %q is not a date (2006-01-02), an RFC 3339 time or a duration back from now (36h, 7d)", flag, v)
+}
+
+// listedOnly reports whether a listing summary exists for an id (or id
+// prefix) whose record body is not found: a sign of a damaged archive.
+func (s *Store) listedOnly(prefix string) bool {
+	found := false
+	s.db.View(func(txn *badger.Txn) error {
+		o := badger.DefaultIteratorOptions
+		o.PrefetchValues = false
+		o.Prefix = []byte(pSummary + prefix)
+		it := txn.NewIterator(o)
+		defer it.Close()
+		it.Rewind()
+		found = it.Valid()
+		return nil
+	})
+	return found
+}
+
+// damagedRecord is the error for a record that listings name but whose
+// body cannot be read.
+func (s *Store) damagedRecord(id string) error {
+	return &sentinelError{ErrDamaged, fmt.Sprintf("archive %s is damaged: record %s… is listed but its body cannot be read; moltrail verify names everything that is lost", s.dir, short(id))}
 }

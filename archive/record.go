@@ -10,8 +10,15 @@
 // lower-case hex SHA-256 of those bytes with ID set to the empty string; the
 // archive stores, exports and imports the same bytes with the id filled in.
 // Because "id" is the first key, the stored bytes differ from the hashed
-// bytes only inside the first string. Any change to any field changes the
-// id. When a field is added or the encoding changes, RecordFormat changes.
+// bytes only inside the first string and by the signature block (below).
+// Any change to any other field changes the id. When a field is added
+// inside the hashed bytes or the encoding changes, RecordFormat changes.
+//
+// The signature block ("signature", last) lies outside the hashed bytes:
+// the canonical bytes are those of the record without it, so a record
+// keeps its id whether it is signed or not, and records written before
+// signatures existed (no block) read and verify as unsigned records. See
+// sign.go.
 package archive
 
 import (
@@ -101,6 +108,8 @@ type Record struct {
 	Derivation *Derivation `json:"derivation,omitempty"`
 	// Format is RecordFormat for records written by this package.
 	Format string `json:"record_format"`
+	// Signature vouches for the record's id (not part of the hashed bytes).
+	Signature *Signature `json:"signature,omitempty"`
 }
 
 func (r *Record) normalise() {
@@ -112,10 +121,12 @@ func (r *Record) normalise() {
 	}
 }
 
-// Canonical returns the bytes the id is computed from (ID empty).
+// Canonical returns the bytes the id is computed from (ID empty, no
+// signature block).
 func (r *Record) Canonical() ([]byte, error) {
 	c := *r
 	c.ID = ""
+	c.Signature = nil
 	c.normalise()
 	b, err := json.Marshal(&c)
 	if err != nil {
@@ -134,7 +145,8 @@ func (r *Record) ComputeID() (string, error) {
 	return hex.EncodeToString(s[:]), nil
 }
 
-// Seal fills Format, InputKey and ID from the record's content.
+// Seal fills Format, InputKey and ID from the record's content. A
+// signature block of another id is dropped (it could only fail).
 func (r *Record) Seal() error {
 	r.normalise()
 	if r.Format == "" {
@@ -148,6 +160,9 @@ func (r *Record) Seal() error {
 	id, err := r.ComputeID()
 	if err != nil {
 		return err
+	}
+	if id != r.ID {
+		r.Signature = nil
 	}
 	r.ID = id
 	return nil
@@ -195,7 +210,7 @@ func Decode(b []byte) (*Record, error) {
 	if err := dec.Decode(&r); err != nil {
 		return nil, fmt.Errorf("not a moltrail record: %v", err)
 	}
-	if dec.More() {
+	if len(bytes.TrimSpace(b[dec.InputOffset():])) > 0 {
 		return nil, fmt.Errorf("not a moltrail record: data after the closing brace")
 	}
 	return &r, nil

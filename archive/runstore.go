@@ -31,6 +31,8 @@ type RunRequest struct {
 	Wait time.Duration
 	// Log receives progress and remarks (nil = silent).
 	Log io.Writer
+	// Key signs the record (nil: the user's key, see UserKey).
+	Key *SigningKey
 }
 
 // RunOutcome is what RunAndStore did.
@@ -45,7 +47,8 @@ type RunOutcome struct {
 }
 
 // FindSameBuild returns the newest stored record of this input key made by
-// the same code version (see Code.SameBuild), or nil.
+// the same code version (see Code.SameBuild) that may be reused (see
+// Store.Reusable), or nil.
 func (s *Store) FindSameBuild(inputKey string, code Code) (*Record, error) {
 	r, _, err := s.FindReuse(inputKey, code)
 	return r, err
@@ -68,6 +71,14 @@ func (s *Store) FindReuse(inputKey string, code Code) (*Record, string, error) {
 		if err != nil {
 			return nil, "", err
 		}
+		if ok, why, err := s.Reusable(r, time.Now()); err != nil {
+			return nil, "", err
+		} else if !ok {
+			if newest == "" {
+				newest = fmt.Sprintf("record %s: %s", short(r.ID), why)
+			}
+			continue
+		}
 		ok, why := r.Code.Match(code)
 		if ok {
 			return r, fmt.Sprintf("record %s holds this input and was made by this code: %s", short(r.ID), why), nil
@@ -79,6 +90,47 @@ func (s *Store) FindReuse(inputKey string, code Code) (*Record, string, error) {
 	return nil, fmt.Sprintf("the archive holds %d record(s) of this input, none made by this code (newest, %s)", len(sums), newest), nil
 }
 
+// FutureSlack is how far a record's start time may lie ahead of this
+// machine's clock (clocks of different machines differ a little) before
+// the record counts as dated in the future.
+const FutureSlack = 5 * time.Minute
+
+// InFuture reports whether a record's start time lies more than
+// FutureSlack after now.
+func (r *Record) InFuture(now time.Time) bool {
+	t, err := time.Parse(time.RFC3339Nano, r.Run.StartUTC)
+	return err == nil && t.After(now.Add(FutureSlack))
+}
+
+// Reusable reports whether a stored record may stand in for a new
+// calculation of its input: its hashes match, it is signed by a key the
+// archive trusts (Store.Trust), and it is not dated in the future. An
+// unsigned record, or one signed by a key the archive does not trust, is
+// never reused: its input is computed again. why says, in a phrase, what
+// keeps a record from being reused.
+func (s *Store) Reusable(r *Record, now time.Time) (ok bool, why string, err error) {
+	trust, err := s.Trust()
+	if err != nil {
+		return false, "", err
+	}
+	if err := r.Check(); err != nil {
+		return false, "its hashes do not match its content", nil
+	}
+	if r.InFuture(now) {
+		return false, "it is dated in the future (" + r.Run.StartUTC + ")", nil
+	}
+	switch c := trust.Check(r); c.State {
+	case SigTrusted:
+		return true, "", nil
+	case SigUnsigned:
+		return false, "it is unsigned (written before records were signed), so it is not reused", nil
+	case SigUntrusted:
+		return false, "it is signed by key " + c.Fingerprint + ", which this archive does not trust", nil
+	default:
+		return false, "its signature does not match its content", nil
+	}
+}
+
 // RunAndStore runs one job and stores its record in the archive at dir:
 // when the archive already holds the input at the running code version
 // and Force is false, it returns that record without computing. Otherwise
@@ -88,6 +140,14 @@ func (s *Store) FindReuse(inputKey string, code Code) (*Record, string, error) {
 func RunAndStore(dir string, req RunRequest, compute Computer) (*RunOutcome, error) {
 	key, err := req.Job.InputKey()
 	if err != nil {
+		return nil, err
+	}
+	if req.Key == nil {
+		if req.Key, err = UserKey(); err != nil {
+			return nil, err
+		}
+	}
+	if err := CheckTags(req.Tags); err != nil {
 		return nil, err
 	}
 	// A place that cannot take the record is refused before computing.
@@ -136,8 +196,19 @@ func RunAndStore(dir string, req RunRequest, compute Computer) (*RunOutcome, err
 	return out, nil
 }
 
-// Compute runs the job and returns the sealed record (not stored).
+// Compute runs the job and returns the sealed and signed record (not
+// stored). The signing key and the tags are checked before computing.
 func Compute(req RunRequest, code Code, lineage []Link, compute Computer) (*Record, error) {
+	key := req.Key
+	if key == nil {
+		var err error
+		if key, err = UserKey(); err != nil {
+			return nil, err
+		}
+	}
+	if err := CheckTags(req.Tags); err != nil {
+		return nil, err
+	}
 	threads := req.Threads
 	if threads <= 0 {
 		threads = runtime.NumCPU()
@@ -183,6 +254,9 @@ func Compute(req RunRequest, code Code, lineage []Link, compute Computer) (*Reco
 		if err := rec.Seal(); err != nil {
 			return nil, err
 		}
+	}
+	if err := key.Sign(rec); err != nil {
+		return nil, err
 	}
 	return rec, nil
 }

@@ -7,9 +7,11 @@ import (
 	"os"
 	"path/filepath"
 	"strings"
+	"sync"
 	"time"
 
 	badger "github.com/dgraph-io/badger/v4"
+	"github.com/dgraph-io/badger/v4/options"
 )
 
 // LayoutVersion names the key layout of the store (see keys.go).
@@ -46,6 +48,10 @@ type Store struct {
 	db       *badger.DB
 	dir      string
 	readOnly bool
+
+	trustOnce sync.Once
+	trust     *TrustSet
+	trustErr  error
 }
 
 // Dir is the archive directory.
@@ -59,7 +65,8 @@ func badgerOptions(dir string, readOnly bool) badger.Options {
 		WithMemTableSize(16 << 20).
 		WithValueLogFileSize(64 << 20).
 		WithNumVersionsToKeep(1).
-		WithCompactL0OnClose(!readOnly)
+		WithCompactL0OnClose(!readOnly).
+		WithChecksumVerificationMode(options.OnBlockRead)
 	return o
 }
 
@@ -140,6 +147,10 @@ func Open(dir string, opt OpenOptions) (*Store, error) {
 			if cerr := rw.Close(); cerr != nil {
 				return nil, fmt.Errorf("archive %s: closing after log replay: %v", dir, cerr)
 			}
+		case isNoSpace(err):
+			return nil, &sentinelError{ErrDiskFull, fmt.Sprintf("archive %s cannot be opened for writing: the disk is full; free some space and run the command again (reading still works)", dir)}
+		case damagedOpen(err) != "":
+			return nil, &sentinelError{ErrDamaged, fmt.Sprintf("archive %s is damaged: %s; restore it from a copy or rebuild it from an export", dir, damagedOpen(err))}
 		default:
 			return nil, fmt.Errorf("archive %s cannot be opened: %v", dir, err)
 		}

@@ -20,6 +20,7 @@ import (
 	"unicode"
 
 	"moltrail/engine/molecule"
+	"moltrail/internal/readfile"
 	"moltrail/schemas"
 
 	"github.com/santhosh-tekuri/jsonschema/v6"
@@ -225,9 +226,12 @@ func LoadRefSet(arg string) (*RefSet, error) {
 	return ReadRefSet(arg)
 }
 
+// MaxRefSetBytes bounds a reference-set file.
+const MaxRefSetBytes = 16 << 20
+
 // ReadRefSet reads and checks a reference-set file.
 func ReadRefSet(file string) (*RefSet, error) {
-	b, err := os.ReadFile(file)
+	b, err := readfile.Read(file, MaxRefSetBytes)
 	if err != nil {
 		return nil, fmt.Errorf("reference set: %v", err)
 	}
@@ -252,6 +256,9 @@ func ParseRefSet(b []byte, origin string) (*RefSet, error) {
 	dec.DisallowUnknownFields()
 	if err := dec.Decode(&s); err != nil {
 		return nil, fmt.Errorf("reference set %s: %v", origin, jsonErr(b, err))
+	}
+	if len(bytes.TrimSpace(b[dec.InputOffset():])) > 0 {
+		return nil, fmt.Errorf("reference set %s: data after the closing brace", origin)
 	}
 	s.Origin = origin
 	sum := sha256.Sum256(b)

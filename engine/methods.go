@@ -138,12 +138,6 @@ func NewJob(r Request) (*Job, error) {
 	if err != nil {
 		return nil, err
 	}
-	if set.Role != "" && set.Role != "orbital" {
-		return nil, fmt.Errorf("basis %q is a %s fitting set, not an orbital basis", set.Name, set.Role)
-	}
-	if el := set.Covers(m); el != "" {
-		return nil, fmt.Errorf("basis %q has no functions for element %s", set.Name, el)
-	}
 	j := &Job{
 		Version:  CanonicalVersion,
 		Molecule: SpecFromMolecule(m),
@@ -169,6 +163,7 @@ func NewJob(r Request) (*Job, error) {
 	if r.Origin != nil {
 		j.Origin = *r.Origin
 	}
+	j.normaliseZeros()
 	if j.Task == "" {
 		j.Task = "energy"
 	}
@@ -291,6 +286,9 @@ func NewJob(r Request) (*Job, error) {
 	if err := j.Validate(); err != nil {
 		return nil, err
 	}
+	if err := j.checkBasis(set, m); err != nil {
+		return nil, err
+	}
 	return j, nil
 }
 
@@ -332,6 +330,12 @@ func (j *Job) Validate() error {
 	}
 	if _, ok := Methods[j.Method]; !ok {
 		return fmt.Errorf("method %q is not available in this build", j.Method)
+	}
+	if err := j.checkConsistent(m); err != nil {
+		return err
+	}
+	if err := j.checkLimits(m); err != nil {
+		return err
 	}
 	s := j.SCF
 	switch {

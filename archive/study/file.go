@@ -21,7 +21,6 @@ import (
 	"bytes"
 	"encoding/json"
 	"fmt"
-	"os"
 	"path/filepath"
 	"sort"
 	"strings"
@@ -32,6 +31,7 @@ import (
 	"moltrail/engine"
 	"moltrail/engine/basis"
 	"moltrail/engine/molecule"
+	"moltrail/internal/readfile"
 	"moltrail/schemas"
 )
 
@@ -192,9 +192,13 @@ func (s *Study) Levels() []*Level { return s.levels }
 // Reader reads a file named in a study (a path relative to the study).
 type Reader func(name string) ([]byte, error)
 
+// MaxFileBytes bounds a study file (the molecule files it names are
+// bounded by the molecule readers).
+const MaxFileBytes = 16 << 20
+
 // Load reads and checks a study file from disk.
 func Load(path string) (*Study, error) {
-	b, err := os.ReadFile(path)
+	b, err := readfile.Read(path, MaxFileBytes)
 	if err != nil {
 		return nil, fmt.Errorf("study file: %v", err)
 	}
@@ -228,7 +232,7 @@ func Parse(b []byte, origin string, read Reader) (*Study, error) {
 	if err := dec.Decode(&f); err != nil {
 		return nil, fmt.Errorf("study %s: %v", origin, jsonErr(b, err))
 	}
-	if dec.More() {
+	if len(bytes.TrimSpace(b[dec.InputOffset():])) > 0 {
 		return nil, fmt.Errorf("study %s: data after the closing brace", origin)
 	}
 	s := &Study{File: f, Origin: origin}

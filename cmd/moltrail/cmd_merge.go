@@ -18,7 +18,10 @@ an archive directory, or a directory of archives such as a study's shards
 directory (each archive in it is a source).
 
 Every record goes through the checks of import: the record schema, strict
-decoding, its id and input key against its content. A record the target
+decoding, its id and input key against its content, its signature (one
+that does not match is refused; with --trusted-only also unsigned records
+and keys the target does not trust), its job as run would check it, and its
+lineage (to a record in the target or in a source). A record the target
 holds already with the same bytes is counted as present; a record whose id
 the target holds with other bytes is refused and named (ids are content
 hashes, so one copy is damaged or forged), and the target keeps its own.
@@ -38,6 +41,7 @@ func cmdMerge(args []string, stdout, stderr io.Writer) int {
 	fs := newFlags("merge", stderr, "--archive DIRECTORY DIRECTORY… [--json]\n\n"+mergeHelp)
 	af := addArchiveFlags(fs)
 	asJSON := fs.Bool("json", false, "print the summary as JSON")
+	trustedOnly := fs.Bool("trusted-only", false, "refuse records that are unsigned or signed by a key the target archive does not trust (see moltrail trust)")
 	pos, code, ok := parseFlags(fs, args)
 	if !ok {
 		return code
@@ -55,7 +59,7 @@ func cmdMerge(args []string, stdout, stderr io.Writer) int {
 		return fail(stderr, code, "merge", err)
 	}
 	defer st.Close()
-	rep, err := st.Merge(srcs, archive.MergeOptions{Wait: af.waitOrNone(), Progress: func(src string, done, total int) {
+	rep, err := st.Merge(srcs, archive.MergeOptions{Wait: af.waitOrNone(), TrustedOnly: *trustedOnly, Progress: func(src string, done, total int) {
 		fmt.Fprintf(stderr, "moltrail merge: %s: %d of %d records done\n", src, done, total)
 	}})
 	if cerr := st.Close(); err == nil && cerr != nil {

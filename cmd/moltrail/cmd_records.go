@@ -1,6 +1,7 @@
 package main
 
 import (
+	"errors"
 	"flag"
 	"fmt"
 	"io"
@@ -14,9 +15,9 @@ import (
 func init() {
 	register(Command{Name: "list", Summary: "stored records, one line each, or a molecule × level overview (filters: molecule, formula, method, basis, task, tag, status, time)", Run: cmdList})
 	register(Command{Name: "show", Summary: "one record, whole (ID or a unique prefix)", Run: cmdShow})
-	register(Command{Name: "verify", Summary: "re-hash every record; names each one that does not match", Run: cmdVerify})
+	register(Command{Name: "verify", Summary: "check every record, index entry and signature; names each record that is lost, altered or signed by an untrusted key", Run: cmdVerify})
 	register(Command{Name: "export", Summary: "write records (all or filtered) as JSON lines", Run: cmdExport})
-	register(Command{Name: "import", Summary: "read JSON-lines records: validated, hash-checked, never overwriting", Run: cmdImport})
+	register(Command{Name: "import", Summary: "read JSON-lines records: checked as run would, hash- and signature-checked, all or nothing, never overwriting", Run: cmdImport})
 	register(Command{Name: "note", Summary: "attach a remark to a record (the record itself never changes)", Run: cmdNote})
 }
 
@@ -237,10 +238,27 @@ func cmdShow(args []string, stdout, stderr io.Writer) int {
 	return exitOK
 }
 
+// verifyNotes says in the help what verify proves and what it does not.
+const verifyNotes = `
+What verify proves: every record's content still hashes to its id and its
+input to its input key; every listing and index entry points at a record
+that can be read and belongs to it, so nothing listed is lost; the table
+files' block checksums match (damage is named); every signature matches its
+record, which shows that the holder of that key signed exactly this content;
+and every signing key is on the archive's trust list or is your own key.
+
+What it does not prove: that the numbers are right, that the program which
+computed them was unmodified, or anything about unsigned records (written
+before records were signed) beyond their hashes. A key's holder can sign
+anything, so trust only keys whose owners you know (moltrail trust).
+
+Exit status 1 when anything is found, naming each record.`
+
 func cmdVerify(args []string, stdout, stderr io.Writer) int {
 	fs := newFlags("verify", stderr, "[--json]")
 	af := addArchiveFlags(fs)
 	asJSON := fs.Bool("json", false, "print the report as JSON")
+	addHelpNotes(fs, verifyNotes)
 	pos, code, ok := parseFlags(fs, args)
 	if !ok {
 		return code
@@ -258,23 +276,38 @@ func cmdVerify(args []string, stdout, stderr io.Writer) int {
 	if err != nil {
 		return fail(stderr, exitFailed, "verify", err)
 	}
+	signed := fmt.Sprintf("%d signed by trusted keys, %d unsigned (written before records were signed)", rep.Trusted, rep.Unsigned)
 	if *asJSON {
 		printJSON(stdout, rep)
 	} else if len(rep.Problems) == 0 {
-		fmt.Fprintf(stdout, "verified %d record(s) and %d note(s) in %s: every hash matches\n", rep.Records, rep.Notes, af.path())
+		fmt.Fprintf(stdout, "verified %d record(s) and %d note(s) in %s: every hash and signature matches; %s\n", rep.Records, rep.Notes, af.path(), signed)
 	} else {
 		for _, p := range rep.Problems {
-			fmt.Fprintf(stdout, "MISMATCH %s  %s\n", p.ID, p.Problem)
+			fmt.Fprintf(stdout, "%-9s %s\n", problemWord[p.Kind], strings.TrimSpace(p.ID+"  "+p.Problem))
 		}
-		fmt.Fprintf(stdout, "%d of %d record(s)/note(s) in %s do not verify\n", len(rep.Problems), rep.Records+rep.Notes, af.path())
+		fmt.Fprintf(stdout, "%d finding(s) in %s (%d record(s) and %d note(s) read; %s)\n", len(rep.Problems), af.path(), rep.Records, rep.Notes, signed)
 	}
 	for _, p := range rep.Problems {
-		fmt.Fprintf(stderr, "moltrail verify: record %s: %s\n", p.ID, p.Problem)
+		if p.ID == "" {
+			fmt.Fprintf(stderr, "moltrail verify: %s\n", p.Problem)
+		} else {
+			fmt.Fprintf(stderr, "moltrail verify: record %s: %s\n", p.ID, p.Problem)
+		}
 	}
 	if len(rep.Problems) > 0 {
 		return exitFailed
 	}
 	return exitOK
+}
+
+// problemWord heads a verify finding by its kind.
+var problemWord = map[string]string{
+	archive.ProblemDamaged:   "DAMAGED",
+	archive.ProblemLost:      "LOST",
+	archive.ProblemContent:   "MISMATCH",
+	archive.ProblemIndex:     "MISMATCH",
+	archive.ProblemSignature: "SIGNATURE",
+	archive.ProblemUntrusted: "UNTRUSTED",
 }
 
 func cmdExport(args []string, stdout, stderr io.Writer) int {
@@ -332,10 +365,15 @@ func cmdExport(args []string, stdout, stderr io.Writer) int {
 	return exitOK
 }
 
+// maxRefusalLines bounds the refusals import prints one by one.
+const maxRefusalLines = 20
+
 func cmdImport(args []string, stdout, stderr io.Writer) int {
-	fs := newFlags("import", stderr, "FILE.jsonl [--json]")
+	fs := newFlags("import", stderr, "FILE.jsonl [--partial] [--trusted-only] [--json]")
 	af := addArchiveFlags(fs)
 	asJSON := fs.Bool("json", false, "print the summary as JSON")
+	partial := fs.Bool("partial", false, "store the acceptable records when some are refused (without it one refused record means nothing is imported, exit status 2)")
+	trustedOnly := fs.Bool("trusted-only", false, "refuse records that are unsigned or signed by a key the archive does not trust (see moltrail trust)")
 	pos, code, ok := parseFlags(fs, args)
 	if !ok {
 		return code
@@ -354,31 +392,26 @@ func cmdImport(args []string, stdout, stderr io.Writer) int {
 	if err != nil {
 		return fail(stderr, exitUsage, "import", fmt.Errorf("%v; nothing was imported", err))
 	}
-	if len(recs) == 0 {
-		// Nothing to write: no archive is created or opened for writing.
-		if *asJSON {
-			printJSON(stdout, archive.ImportReport{Source: pos[0], Refused: []archive.Refusal{}})
-		} else {
-			fmt.Fprintf(stdout, "%s: no records; nothing was imported\n", pos[0])
-		}
-		return exitOK
-	}
-	st, code, err := af.open(false, stderr)
-	if err != nil {
-		return fail(stderr, code, "import", err)
-	}
-	defer st.Close()
-	rep, err := st.ImportRecords(recs, lines, pos[0], func(done, total int) {
+	batch := archive.Batch{Source: pos[0], Records: recs, Lines: lines}
+	policy := archive.ImportPolicy{Partial: *partial, TrustedOnly: *trustedOnly}
+	rep, err := archive.ImportInto(af.path(), batch, policy, archive.OpenOptions{Wait: af.waitOrNone(), Log: stderr}, func(done, total int) {
 		fmt.Fprintf(stderr, "moltrail import: %d of %d records written\n", done, total)
 	})
-	if err != nil {
-		return fail(stderr, exitFailed, "import", err)
-	}
-	if err := st.Close(); err != nil {
-		return fail(stderr, exitFailed, "import", err)
-	}
-	for _, r := range rep.Refused {
+	for i, r := range rep.Refused {
+		if i == maxRefusalLines && len(rep.Refused) > i+1 {
+			fmt.Fprintf(stderr, "moltrail import: … and %d more refused (--json lists them all)\n", len(rep.Refused)-i)
+			break
+		}
 		fmt.Fprintf(stderr, "moltrail import: %s\n", r.Reason)
+	}
+	if errors.Is(err, archive.ErrRefused) {
+		if *asJSON {
+			printJSON(stdout, rep)
+		}
+		return fail(stderr, exitUsage, "import", fmt.Errorf("%s: %v (--partial)", pos[0], err))
+	}
+	if err != nil {
+		return fail(stderr, archiveErrCode(err), "import", err)
 	}
 	if *asJSON {
 		printJSON(stdout, rep)

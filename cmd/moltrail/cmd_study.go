@@ -161,6 +161,12 @@ func cmdStudy(args []string, stdout, stderr io.Writer) int {
 		if err := checkOutPath(r.reportOut); err != nil {
 			return fail(stderr, exitUsage, "study", fmt.Errorf("report %s: %v", r.reportOut, err))
 		}
+		if _, err := compare.LoadRefSet(r.refs); err != nil {
+			return fail(stderr, exitUsage, "study", err)
+		}
+	}
+	if _, err := archive.UserKey(); err != nil {
+		return fail(stderr, exitFailed, "study", fmt.Errorf("%v; nothing was computed", err))
 	}
 	sum, code := runStudy(plan, r, stderr)
 	if sum == nil {

@@ -48,6 +48,16 @@ func newFlags(name string, stderr io.Writer, synopsis string) *flag.FlagSet {
 	return fs
 }
 
+// addHelpNotes appends paragraphs to a command's --help, after its flags.
+func addHelpNotes(fs *flag.FlagSet, notes string) {
+	usage := fs.Usage
+	fs.Usage = func() {
+		usage()
+		w := helpWriter(fs.Output())
+		fmt.Fprintf(w, "\n%s\n", strings.TrimSpace(notes))
+	}
+}
+
 // writeFlagHelp lists a command's flags: --name VALUE, what it does, and
 // its default when that is not empty or zero. A word in back quotes in the
 // usage text names the value (as with the flag package); otherwise the

@@ -385,7 +385,7 @@ func TestHelp(t *testing.T) {
 			t.Errorf("help does not list %s", name)
 		}
 	}
-	for _, name := range []string{"run", "list", "show", "verify", "export", "import", "note", "basis", "version", "reproduce", "trace", "diff", "compare", "report"} {
+	for _, name := range []string{"run", "list", "show", "verify", "export", "import", "note", "basis", "version", "reproduce", "trace", "diff", "compare", "report", "key", "trust"} {
 		for _, form := range [][]string{{"help", name}, {name, "--help"}, {name, "-h"}} {
 			r := call(form...)
 			if r.code != exitOK || r.stderr != "" || !strings.HasPrefix(r.stdout, "moltrail "+name+" — ") || !strings.Contains(r.stdout, "usage: moltrail "+name) {

@@ -256,14 +256,19 @@ func TestExportImportVerifyRoundTrip(t *testing.T) {
 		t.Fatalf("verify: exit %d %s %s", v.code, v.stdout, v.stderr)
 	}
 
-	// Tampered line: refused and named, the rest imported.
+	// Tampered line: refused and named; nothing imported (and no archive
+	// created) unless --partial asks for the rest.
 	lines := strings.Split(strings.TrimSpace(readFile(t, out)), "\n")
 	lines[2] = strings.Replace(lines[2], `"threads":`, `"threads":1`, 1)
 	tam := writeFile(t, dir, "tampered.jsonl", strings.Join(lines, "\n")+"\n")
 	fresh := filepath.Join(dir, "fresh")
 	r = moltrail(t, nil, "import", "--archive", fresh, tam)
+	if _, err := os.Stat(fresh); r.code != 2 || !strings.Contains(r.stderr, "tampered.jsonl:3") || !strings.Contains(r.stderr, "nothing was imported") || err == nil {
+		t.Fatalf("tampered import: exit %d (archive created: %v)\n%s\n%s", r.code, err == nil, r.stdout, r.stderr)
+	}
+	r = moltrail(t, nil, "import", "--archive", fresh, "--partial", tam)
 	if r.code != 1 || !strings.Contains(r.stderr, "tampered.jsonl:3") || !strings.Contains(r.stdout, "3 imported") || !strings.Contains(r.stdout, "1 refused") {
-		t.Fatalf("tampered import: exit %d\n%s\n%s", r.code, r.stdout, r.stderr)
+		t.Fatalf("tampered import --partial: exit %d\n%s\n%s", r.code, r.stdout, r.stderr)
 	}
 
 	// Malformed, truncated, wrong schema: clear error, archive unchanged.

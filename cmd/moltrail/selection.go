@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"io"
 	"strings"
+	"time"
 
 	"moltrail/archive"
 	"moltrail/compare"
@@ -66,12 +67,29 @@ func (c *comparisonFlags) resolve() (*comparison, error) {
 // included) and named like a molecule of the set (a name or an alias). It decides nothing more: compare.Compare picks the newest
 // converged record per molecule and level among them and lists the rest
 // as left out. Records come in the archive's listing order.
-func selectRecordsForComparison(st *archive.Store, set *compare.RefSet, f archive.Filter) ([]*archive.Record, error) {
+//
+// Records that cannot be vouched for are left out and counted on
+// stderr: a signature that does not match, a signing key the archive does
+// not trust, a start time in the future. Unsigned records (written before
+// records were signed) are taken as they are.
+func selectRecordsForComparison(st *archive.Store, set *compare.RefSet, f archive.Filter, stderr io.Writer) ([]*archive.Record, error) {
 	sums, err := st.List(f)
 	if err != nil {
 		return nil, err
 	}
+	trust, err := st.Trust()
+	if err != nil {
+		return nil, err
+	}
+	now := time.Now()
+	left := map[string]int{}
 	var recs []*archive.Record
+	defer func() {
+		if n := left[archive.SigInvalid] + left[archive.SigUntrusted] + left["future"]; n > 0 {
+			fmt.Fprintf(stderr, "moltrail: %d record(s) left out of the comparison: %d with a signature that does not match, %d signed by keys this archive does not trust (moltrail trust), %d dated in the future\n",
+				n, left[archive.SigInvalid], left[archive.SigUntrusted], left["future"])
+		}
+	}()
 	for _, s := range sums {
 		if !set.Names(s.Molecule) {
 			continue
@@ -79,6 +97,14 @@ func selectRecordsForComparison(st *archive.Store, set *compare.RefSet, f archiv
 		r, _, err := st.Get(s.ID)
 		if err != nil {
 			return nil, err
+		}
+		if r.InFuture(now) {
+			left["future"]++
+			continue
+		}
+		if c := trust.Check(r); c.State == archive.SigInvalid || c.State == archive.SigUntrusted {
+			left[c.State]++
+			continue
 		}
 		recs = append(recs, r)
 	}
@@ -94,7 +120,7 @@ func compareArchive(af *archiveFlags, c *comparison, stderr io.Writer) (tab *com
 		return nil, nil, code, err
 	}
 	defer st.Close()
-	if recs, err = selectRecordsForComparison(st, c.set, c.filter); err != nil {
+	if recs, err = selectRecordsForComparison(st, c.set, c.filter, stderr); err != nil {
 		return nil, nil, exitFailed, err
 	}
 	if recs, err = withReferenceRecords(st, c.set, recs); err != nil {

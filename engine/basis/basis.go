@@ -12,6 +12,7 @@
 package basis
 
 import (
+	"bytes"
 	"crypto/sha256"
 	"embed"
 	"encoding/hex"
@@ -26,6 +27,7 @@ import (
 	"sync"
 
 	"moltrail/engine/molecule"
+	"moltrail/internal/readfile"
 )
 
 //go:embed data/*.json
@@ -203,7 +205,7 @@ func isPath(nameOrPath string) bool {
 
 // ReadFile reads a user-supplied basis file in the library's JSON layout.
 func ReadFile(path string) (*Set, error) {
-	b, err := os.ReadFile(path)
+	b, err := readfile.Read(path, MaxFileBytes)
 	if err != nil {
 		return nil, fmt.Errorf("cannot read basis file: %w", err)
 	}
@@ -226,6 +228,9 @@ func parse(b []byte, file string) (*Set, error) {
 			return nil, fmt.Errorf("basis file %s: the JSON is cut short", file)
 		}
 		return nil, fmt.Errorf("basis file %s: not a basis set in moltrail's JSON layout: %v", file, err)
+	}
+	if len(bytes.TrimSpace(b[dec.InputOffset():])) > 0 {
+		return nil, fmt.Errorf("basis file %s: data after the closing brace of the basis set", file)
 	}
 	if s.Name == "" {
 		return nil, fmt.Errorf("basis file %s: field \"name\" is missing", file)
@@ -252,6 +257,9 @@ func parse(b []byte, file string) (*Set, error) {
 			if len(sh.Exponents) == 0 || len(sh.Exponents) != len(sh.Coefficients) {
 				return nil, fmt.Errorf("%s: %d exponents but %d coefficients", where, len(sh.Exponents), len(sh.Coefficients))
 			}
+			if len(sh.Exponents) > MaxPrimitives {
+				return nil, fmt.Errorf("%s: %d primitives in one shell; at most %d are accepted", where, len(sh.Exponents), MaxPrimitives)
+			}
 			for k, a := range sh.Exponents {
 				if !(a > 0) || math.IsInf(a, 0) {
 					return nil, fmt.Errorf("%s: exponent %d is %v, it must be positive and finite", where, k, a)
@@ -275,6 +283,15 @@ func parse(b []byte, file string) (*Set, error) {
 const MaxL = 4
 
 const maxFileL = 6
+
+// MaxPrimitives bounds the primitives of one contracted shell (the largest
+// contraction of the built-in library has 21). The integral work grows
+// with the fourth power of the count, so a file with thousands would run
+// for hours.
+const MaxPrimitives = 40
+
+// MaxFileBytes bounds a basis file read from disk.
+const MaxFileBytes = 16 << 20
 
 // Covers reports the first element of the molecule the set lacks, or "".
 func (s *Set) Covers(m *molecule.Molecule) string {
