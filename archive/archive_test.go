@@ -372,12 +372,17 @@ func TestFindReuseSays(t *testing.T) {
 		t.Fatalf("empty archive: %v %q %v", got, why, err)
 	}
 	s.Put(r)
+	if got, why, _ := s.FindReuse(r.InputKey, r.Code); got != nil || !strings.Contains(why, "it is unsigned") {
+		t.Errorf("unsigned record: %q", why)
+	}
+	r = signed(t, fixture(t, 1, "hf", "sto-3g", nil, t0.Add(time.Minute)))
+	s.Put(r)
 	if got, why, _ := s.FindReuse(r.InputKey, r.Code); got == nil || !strings.Contains(why, "record "+r.ID[:12]+" holds this input") {
 		t.Errorf("same code: %q", why)
 	}
 	other := r.Code
 	other.GoVersion = "go0.0"
-	if got, why, _ := s.FindReuse(r.InputKey, other); got != nil || !strings.Contains(why, "1 record(s) of this input, none made by this code") || !strings.Contains(why, "Go version") {
+	if got, why, _ := s.FindReuse(r.InputKey, other); got != nil || !strings.Contains(why, "2 record(s) of this input, none made by this code") || !strings.Contains(why, "Go version") {
 		t.Errorf("other code: %q", why)
 	}
 }

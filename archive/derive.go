@@ -178,10 +178,23 @@ func Derive(recipe string, inputs []*Record, params map[string]string) (*Record,
 	}
 	rec.Results = *res
 	rec.Status = res.Status
-	if err := rec.Seal(); err != nil {
+	if err := sealAndSign(rec); err != nil {
 		return nil, err
 	}
 	return rec, nil
+}
+
+// sealAndSign seals a record this build made and signs it with the
+// user's key.
+func sealAndSign(rec *Record) error {
+	if err := rec.Seal(); err != nil {
+		return err
+	}
+	k, err := UserKey()
+	if err != nil {
+		return err
+	}
+	return k.Sign(rec)
 }
 
 func recipeNames() string {
@@ -313,7 +326,7 @@ func ReproduceDerived(dir, id string, req RunRequest, compute Computer) (*Reprod
 	for k, v := range orig.Tags {
 		rec.Tags[k] = v
 	}
-	if err := rec.Seal(); err != nil {
+	if err := sealAndSign(rec); err != nil {
 		return nil, nil, err
 	}
 	w, err := Open(dir, OpenOptions{Wait: req.Wait, Log: req.Log})

@@ -90,8 +90,8 @@ func VetRecord(r *Record, trust *TrustSet, p ImportPolicy, known func(id string)
 			return fmt.Errorf("it is signed by key %s, which this archive does not trust", c.Fingerprint)
 		}
 	}
-	if err := r.Input.CheckComputable(); err != nil {
-		return fmt.Errorf("its input would not run: %v", err)
+	if err := vetInput(r); err != nil {
+		return err
 	}
 	if err := CheckTags(r.Tags); err != nil {
 		return err
@@ -119,13 +119,39 @@ func VetRecord(r *Record, trust *TrustSet, p ImportPolicy, known func(id string)
 	}
 	for _, l := range r.Lineage {
 		switch l.Relation {
-		case GeometryFrom, Reproduces, Recomputes:
+		case GeometryFrom, Reproduces, Recomputes, DerivedFrom:
 		default:
 			return fmt.Errorf("lineage relation %q is not known", l.Relation)
 		}
 		if !known(l.ID) {
 			return fmt.Errorf("its lineage (%s) names record %s…, which is neither in the archive nor accepted from the same batch", l.Relation, short(l.ID))
 		}
+	}
+	return nil
+}
+
+// vetInput checks what a record was computed from: a calculation's job as
+// run would; for a derived record, its recipe and molecule (its job only
+// labels the combination and is never computed).
+func vetInput(r *Record) error {
+	if r.Derivation == nil {
+		if err := r.Input.CheckComputable(); err != nil {
+			return fmt.Errorf("its input would not run: %v", err)
+		}
+		return nil
+	}
+	if _, ok := Recipes[r.Derivation.Recipe]; !ok {
+		return fmt.Errorf("derivation recipe %q is not known (known: %s)", r.Derivation.Recipe, recipeNames())
+	}
+	if err := checkText("molecule name", r.Input.Molecule.Name); err != nil {
+		return err
+	}
+	m, err := r.Input.MoleculeOf()
+	if err == nil {
+		err = m.Check()
+	}
+	if err != nil {
+		return fmt.Errorf("its molecule: %v", err)
 	}
 	return nil
 }

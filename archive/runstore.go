@@ -71,17 +71,15 @@ func (s *Store) FindReuse(inputKey string, code Code) (*Record, string, error) {
 		if err != nil {
 			return nil, "", err
 		}
-		if ok, why, err := s.Reusable(r, time.Now()); err != nil {
-			return nil, "", err
-		} else if !ok {
-			if newest == "" {
-				newest = fmt.Sprintf("record %s: %s", short(r.ID), why)
-			}
-			continue
-		}
 		ok, why := r.Code.Match(code)
 		if ok {
-			return r, fmt.Sprintf("record %s holds this input and was made by this code: %s", short(r.ID), why), nil
+			same := why
+			if ok, why, err = s.Reusable(r, time.Now()); err != nil {
+				return nil, "", err
+			}
+			if ok {
+				return r, fmt.Sprintf("record %s holds this input and was made by this code: %s", short(r.ID), same), nil
+			}
 		}
 		if newest == "" {
 			newest = fmt.Sprintf("record %s: %s", short(r.ID), why)

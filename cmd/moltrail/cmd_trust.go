@@ -55,9 +55,11 @@ func cmdKey(args []string, stdout, stderr io.Writer) int {
 }
 
 const trustNotes = `
-moltrail trust list                      the archive's trust list
-moltrail trust add KEY|FILE --label WHO   trust a public key (text, or a file holding it)
-moltrail trust remove FINGERPRINT|KEY     take a key off the list
+moltrail trust list                         the archive's trust list
+moltrail trust add TEXT|FILE --label NAME   trust a public key: its text (ed25519:…,
+                                            as moltrail key prints it) or a file holding it
+moltrail trust remove TEXT                  take a key off the list: its text or its
+                                            fingerprint (at least 8 hex digits)
 
 Verify reports records signed by keys that are not trusted, import and
 merge can refuse them (--trusted-only), and run and study never reuse them.
@@ -65,7 +67,7 @@ Your own key is always trusted by you and need not be on the list. The list
 is kept in the archive and changes only through this command.`
 
 func cmdTrust(args []string, stdout, stderr io.Writer) int {
-	fs := newFlags("trust", stderr, "list | add KEY|FILE --label WHO | remove FINGERPRINT|KEY")
+	fs := newFlags("trust", stderr, "list | add TEXT|FILE --label NAME | remove TEXT")
 	af := addArchiveFlags(fs)
 	asJSON := fs.Bool("json", false, "print the result as JSON")
 	label := fs.String("label", "", "add: whose key it is (a `NAME` shown by verify)")
@@ -75,7 +77,7 @@ func cmdTrust(args []string, stdout, stderr io.Writer) int {
 		return code
 	}
 	if len(pos) == 0 {
-		fmt.Fprintln(stderr, "moltrail trust: give list, add KEY --label WHO, or remove FINGERPRINT")
+		fmt.Fprintln(stderr, "moltrail trust: give list, add PUBLIC-KEY --label NAME, or remove FINGERPRINT")
 		return exitUsage
 	}
 	switch verb := pos[0]; {
@@ -109,7 +111,7 @@ func cmdTrust(args []string, stdout, stderr io.Writer) int {
 			return fail(stderr, exitUsage, "trust", err)
 		}
 		if strings.TrimSpace(*label) == "" {
-			fmt.Fprintln(stderr, "moltrail trust add: give --label WHO: whose key it is")
+			fmt.Fprintln(stderr, "moltrail trust add: give --label NAME: whose key it is")
 			return exitUsage
 		}
 		if _, err := archive.ParsePublicKey(key); err != nil {
@@ -147,7 +149,7 @@ func cmdTrust(args []string, stdout, stderr io.Writer) int {
 		}
 		return exitOK
 	}
-	fmt.Fprintf(stderr, "moltrail trust: %q is not list, add KEY --label WHO, or remove FINGERPRINT\n", strings.Join(pos, " "))
+	fmt.Fprintf(stderr, "moltrail trust: %q is not list, add PUBLIC-KEY --label NAME, or remove FINGERPRINT\n", strings.Join(pos, " "))
 	return exitUsage
 }
 

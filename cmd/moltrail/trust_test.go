@@ -83,7 +83,7 @@ func TestSignedRecordsAndTrust(t *testing.T) {
 	if r := moltrail(t, alice, "import", "--archive", mine, "--partial", f1); r.code != 1 || !strings.Contains(r.stderr, "does not match the record's content") {
 		t.Fatalf("a stale signature was accepted: exit %d %s", r.code, r.stderr)
 	}
-	if r := moltrail(t, alice, "run", "--archive", mine, "--basis", "sto-3g", xyz); r.code != 0 || !strings.Contains(r.stderr, "already holds this input") {
+	if r := moltrail(t, alice, "run", "--archive", mine, "--basis", "sto-3g", xyz); r.code != 0 || !strings.Contains(r.stderr, "reused, nothing was computed") {
 		t.Fatalf("run no longer reuses alice's own record: %s", r.stderr)
 	}
 
