@@ -236,6 +236,8 @@ func (j *Job) checkConsistent(m *molecule.Molecule) error {
 		want = pick("rhf", "uhf")
 	case "dft":
 		want = pick("rks", "uks")
+	case "cc":
+		want = "rhf"
 	default:
 		return nil
 	}
@@ -248,17 +250,11 @@ func (j *Job) checkConsistent(m *molecule.Molecule) error {
 	if (j.Grid != nil) != (info.Family == "dft") {
 		return fmt.Errorf("a grid belongs to DFT methods only; method %s %s one", j.Method, map[bool]string{true: "has", false: "lacks"}[j.Grid != nil])
 	}
-	if c := j.Correlation; (c != nil) != (info.Family == "mp2") {
-		return fmt.Errorf("correlation settings belong to MP2-family methods only; method %s %s them", j.Method, map[bool]string{true: "has", false: "lacks"}[c != nil])
-	} else if c != nil {
-		switch c.RelaxedProperties {
-		case "z-vector", "finite-field", "none":
-		default:
-			return fmt.Errorf("correlation.relaxed_properties %q is not known (z-vector, finite-field, none)", c.RelaxedProperties)
-		}
+	if c := j.Correlation; (c != nil) != info.Correlated() {
+		return fmt.Errorf("correlation settings belong to correlated methods only; method %s %s them", j.Method, map[bool]string{true: "has", false: "lacks"}[c != nil])
 	}
 	switch j.Task {
-	case "energy":
+	case "energy", "frequencies":
 		if j.Opt != nil {
 			return fmt.Errorf("optimization settings belong to the optimize task, not to %s", j.Task)
 		}
@@ -269,7 +265,7 @@ func (j *Job) checkConsistent(m *molecule.Molecule) error {
 		}
 		switch o.GradientMethod {
 		case "analytic":
-			if info.Family == "mp2" {
+			if info.Correlated() {
 				return fmt.Errorf("analytic gradients are not available for %s; use the finite-difference gradient method", j.Method)
 			}
 		case "finite-difference":
@@ -280,7 +276,7 @@ func (j *Job) checkConsistent(m *molecule.Molecule) error {
 			return fmt.Errorf("optimization.gradient_method %q is not known (analytic or finite-difference)", o.GradientMethod)
 		}
 	default:
-		return fmt.Errorf("task %q is not known (energy or optimize)", j.Task)
+		return fmt.Errorf("task %q is not known (energy, optimize or frequencies)", j.Task)
 	}
 	return nil
 }
