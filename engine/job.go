@@ -135,6 +135,10 @@ type OptSettings struct {
 	Coordinates      string  `json:"coordinates"`
 	GradientMethod   string  `json:"gradient_method"`
 	FiniteDiffStepAU float64 `json:"finite_difference_step_bohr,omitempty"`
+	// SymmetryTolAngstrom: the point group the start geometry has within
+	// this tolerance is detected, the start geometry symmetrised to it, and
+	// every gradient and step kept to it (engine/symmetry). 0: none.
+	SymmetryTolAngstrom float64 `json:"symmetry_tolerance_angstrom,omitempty"`
 }
 
 // FreqSettings are the controls of a harmonic vibrational analysis.

@@ -9,6 +9,7 @@ import (
 
 	"moltrail/engine/basis"
 	"moltrail/engine/molecule"
+	"moltrail/engine/symmetry"
 )
 
 // MethodInfo describes one method name accepted by the engine.
@@ -302,6 +303,8 @@ var DefaultOpt = OptSettings{
 	TrustRadiusBohr: 0.3,
 	Coordinates:     "cartesian",
 	GradientMethod:  "analytic",
+	// Symmetric molecules stay symmetric (within 0.01 Å).
+	SymmetryTolAngstrom: symmetry.DefaultToleranceAngstrom,
 }
 
 // Default frequency settings: central differences of analytic gradients
@@ -363,6 +366,9 @@ func (j *Job) Validate() error {
 	}
 	if err := j.Origin.check(m); err != nil {
 		return err
+	}
+	if o := j.Opt; o != nil && !(o.SymmetryTolAngstrom >= 0 && o.SymmetryTolAngstrom <= 0.1) {
+		return fmt.Errorf("optimization.symmetry_tolerance_angstrom %g is outside 0–0.1 Å", o.SymmetryTolAngstrom)
 	}
 	if f := j.Freq; f != nil {
 		switch {

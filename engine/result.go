@@ -150,6 +150,9 @@ type OptStep struct {
 	RMSForce         float64    `json:"rms_force_hartree_per_bohr"`
 	MaxStepBohr      float64    `json:"max_step_bohr"`
 	GeometryAngstrom []GeomAtom `json:"geometry_angstrom"`
+	// Rejected marks a step the optimisation tried and went back from (the
+	// energy rose); the next step starts again from the point before it.
+	Rejected bool `json:"rejected,omitempty"`
 }
 
 // Bond, Angle and Dihedral are structural parameters of a geometry
@@ -244,6 +247,8 @@ type Result struct {
 	Trajectory      []OptStep       `json:"optimization_trajectory,omitempty"`
 	Structure       *Structure      `json:"structure,omitempty"`
 	Vibrations      *Vibrations     `json:"vibrations,omitempty"`
+	// PointGroup is the point group an optimisation kept (Schoenflies symbol).
+	PointGroup string `json:"point_group,omitempty"`
 	// Notes are plain-words remarks the engine wants a reader to see.
 	Notes []string `json:"notes,omitempty"`
 }

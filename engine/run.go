@@ -15,6 +15,7 @@ import (
 	"moltrail/engine/opt"
 	"moltrail/engine/props"
 	"moltrail/engine/scf"
+	"moltrail/engine/symmetry"
 	"moltrail/engine/vib"
 )
 
@@ -318,7 +319,7 @@ func runOptimize(job *Job, mol *molecule.Molecule, set *basis.Set, o RunOptions)
 	var eg opt.EnergyGradient
 	switch os.GradientMethod {
 	case "finite-difference":
-		eg = opt.InternalFiniteDifferenceGradient(energyAt(job, mol, set, o), os.FiniteDiffStepAU, o.threads())
+		eg = opt.InternalFiniteDifferenceGradient(energyAt(job, mol, set, o), os.FiniteDiffStepAU, o.threads(), o.Progress)
 	default:
 		eg = func(x []float64) (float64, []float64, error) {
 			m := opt.WithCoordinates(mol, x)
@@ -329,7 +330,16 @@ func runOptimize(job *Job, mol *molecule.Molecule, set *basis.Set, o RunOptions)
 	if o.Progress != nil {
 		settings.Progress = o.Progress
 	}
-	or, err := opt.Minimize(mol, eg, settings)
+	start, pg := mol, (*symmetry.Group)(nil)
+	if tol := os.SymmetryTolAngstrom; tol > 0 {
+		pg = symmetry.Detect(mol, tol)
+		if pg.Order() > 1 {
+			start = opt.WithCoordinates(mol, pg.Symmetrize(opt.Coordinates(mol)))
+			settings.Symmetrize = pg.Vector
+			o.logf("  symmetry: point group %s within %g Å; the start geometry moved by at most %.1e Å onto it; every gradient and step keeps it\n", pg.Name, tol, pg.MaxShiftBohr*molecule.BohrAngstrom)
+		}
+	}
+	or, err := opt.Minimize(start, eg, settings)
 	var nc errNotConverged
 	if errors.As(err, &nc) {
 		return &Result{Status: StatusNotConverged, Error: "an SCF along the optimisation did not converge: " + nc.msg, GeometryAngstrom: geomAngstrom(mol)}, nil
@@ -343,7 +353,13 @@ func runOptimize(job *Job, mol *molecule.Molecule, set *basis.Set, o RunOptions)
 		return nil, err
 	}
 	for i, st := range or.Steps {
-		res.Trajectory = append(res.Trajectory, OptStep{Step: i, EnergyHartree: st.Energy, MaxForce: st.MaxForce, RMSForce: st.RMSForce, MaxStepBohr: st.MaxStep, GeometryAngstrom: geomAngstrom(opt.WithCoordinates(mol, st.X))})
+		res.Trajectory = append(res.Trajectory, OptStep{Step: i, EnergyHartree: st.Energy, MaxForce: st.MaxForce, RMSForce: st.RMSForce, MaxStepBohr: st.MaxStep, GeometryAngstrom: geomAngstrom(opt.WithCoordinates(mol, st.X)), Rejected: st.Rejected})
+	}
+	if pg != nil {
+		res.PointGroup = pg.Name
+		if d := pg.MaxShiftBohr * molecule.BohrAngstrom; d > 1e-6 {
+			res.Notes = append(res.Notes, fmt.Sprintf("the start geometry was symmetrised to point group %s (atoms moved by up to %.1e Å) and the optimisation kept that symmetry", pg.Name, d))
+		}
 	}
 	finishGeometry(res, final)
 	if !or.Converged && res.Status == StatusConverged {

@@ -121,6 +121,8 @@ type OptEntry struct {
 	FiniteDiffStepAU *float64 `json:"finite_difference_step_bohr,omitempty"`
 	// Frequencies adds harmonic frequencies at the optimised geometry.
 	Frequencies bool `json:"frequencies,omitempty"`
+	// SymmetryTolAngstrom: the tolerance of the point group kept (0: none).
+	SymmetryTolAngstrom *float64 `json:"symmetry_tolerance_angstrom,omitempty"`
 }
 
 // TaskEntry asks for one kind of calculation for molecules × levels.
@@ -494,6 +496,7 @@ func (c *OptEntry) apply(o *engine.OptSettings) {
 		o.GradientMethod = c.GradientMethod
 	}
 	setF(&o.FiniteDiffStepAU, c.FiniteDiffStepAU)
+	setF(&o.SymmetryTolAngstrom, c.SymmetryTolAngstrom)
 }
 
 func setF(dst *float64, v *float64) {

@@ -89,6 +89,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 	ccETol := fs.Float64("cc-energy-tol", engine.DefaultCC.EnergyTolHartree, "coupled cluster: converged when |ΔE| < this (hartree) …")
 	ccATol := fs.Float64("cc-amplitude-tol", engine.DefaultCC.AmplitudeTol, "coupled cluster: … and the RMS amplitude change < this")
 	ccMaxIter := fs.Int("cc-max-iter", engine.DefaultCC.MaxIter, "coupled cluster: iteration limit")
+	symTol := fs.Float64("symmetry-tol", engine.DefaultOpt.SymmetryTolAngstrom, "optimisation: keep the start geometry's point group found within this tolerance (Å; 0 = do not)")
 	gradMethod := fs.String("gradient", "", "optimisation gradient `KIND`: analytic or finite-difference (default: analytic for HF and DFT, finite-difference for the MP2 family)")
 	pos, code, ok := parseFlags(fs, args)
 	if !ok {
@@ -172,9 +173,9 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 		c.EnergyTolHartree, c.AmplitudeTol, c.MaxIter = *ccETol, *ccATol, *ccMaxIter
 		req.CC = &c
 	}
-	if set["max-force"] || set["max-steps"] || set["gradient"] {
+	if set["max-force"] || set["max-steps"] || set["gradient"] || set["symmetry-tol"] {
 		o := engine.DefaultOpt
-		o.MaxForce, o.MaxSteps = *maxForce, *maxSteps
+		o.MaxForce, o.MaxSteps, o.SymmetryTolAngstrom = *maxForce, *maxSteps, *symTol
 		o.RMSForce = math.Min(o.RMSForce, *maxForce)
 		if *gradMethod != "" {
 			o.GradientMethod = *gradMethod

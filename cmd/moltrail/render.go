@@ -182,6 +182,7 @@ func writeRecord(w io.Writer, r *archive.Record, notes []archive.Note, look arch
 		last := tr[len(tr)-1]
 		kv("optimisation", "%d geometries, last max force %.2e hartree/bohr, energy change over the run %.6f hartree",
 			len(tr), last.MaxForce, last.EnergyHartree-tr[0].EnergyHartree)
+		writeOptSteps(w, res)
 	}
 	writeVibrations(w, res.Vibrations)
 	for _, n := range res.Notes {

@@ -66,3 +66,20 @@ func writeVibrations(w io.Writer, v *engine.Vibrations) {
 	}
 	fmt.Fprintln(w, "    harmonic values: anharmonicity and the method's own errors are not included")
 }
+
+// writeOptSteps adds the kept point group and the rejected steps of an
+// optimisation to show.
+func writeOptSteps(w io.Writer, res engine.Result) {
+	if res.PointGroup != "" {
+		fmt.Fprintf(w, "  %-22s %s (kept through the optimisation)\n", "point group", res.PointGroup)
+	}
+	var rej []string
+	for _, st := range res.Trajectory {
+		if st.Rejected {
+			rej = append(rej, fmt.Sprint(st.Step))
+		}
+	}
+	if len(rej) > 0 {
+		fmt.Fprintf(w, "  %-22s %s (the energy rose; the optimisation went back and took a shorter step)\n", "rejected steps", strings.Join(rej, ", "))
+	}
+}

@@ -2,6 +2,7 @@ package opt
 
 import (
 	"fmt"
+	"io"
 	"sync"
 
 	"gonum.org/v1/gonum/mat"
@@ -13,7 +14,7 @@ import (
 // truncation error is O(h²) (about 1e-7 hartree/bohr for h = 1e-3 bohr on
 // typical surfaces).
 func FiniteDifferenceGradient(energy func(x []float64) (float64, error), h float64, workers int) EnergyGradient {
-	return directional(energy, h, workers, func(x []float64) [][]float64 {
+	return directional(energy, h, workers, nil, func(x []float64) [][]float64 {
 		dirs := make([][]float64, len(x))
 		for i := range dirs {
 			dirs[i] = make([]float64, len(x))
@@ -27,68 +28,89 @@ func FiniteDifferenceGradient(energy func(x []float64) (float64, error), h float
 // along the 3N−6 (3N−5 for linear) directions free of overall translation
 // and rotation: the energy does not change along the other six, so the
 // gradient is the same but needs 2(3N−6) energies instead of 6N — two for a
-// diatomic instead of twelve.
-func InternalFiniteDifferenceGradient(energy func(x []float64) (float64, error), h float64, workers int) EnergyGradient {
-	return directional(energy, h, workers, internalDirections)
+// diatomic instead of twelve. progress (nil: none) receives a line per
+// finished energy.
+func InternalFiniteDifferenceGradient(energy func(x []float64) (float64, error), h float64, workers int, progress io.Writer) EnergyGradient {
+	return directional(energy, h, workers, progress, internalDirections)
 }
 
 // directional differentiates energy along orthonormal directions: the
 // gradient is Σ_k (dE/dq_k) d_k, with central differences of step h, the
 // displaced energies computed on `workers` goroutines.
-func directional(energy func(x []float64) (float64, error), h float64, workers int, directions func([]float64) [][]float64) EnergyGradient {
-	if workers < 1 {
-		workers = 1
-	}
+func directional(energy func(x []float64) (float64, error), h float64, workers int, progress io.Writer, directions func([]float64) [][]float64) EnergyGradient {
 	return func(x []float64) (float64, []float64, error) {
 		dirs := directions(x)
 		m := len(dirs)
-		vals := make([]float64, 2*m)
-		errs := make([]error, 2*m)
-		tasks := make(chan int)
-		var wg sync.WaitGroup
-		for w := 0; w < workers; w++ {
-			wg.Add(1)
-			go func() {
-				defer wg.Done()
-				for t := range tasks {
-					s := h
-					if t%2 == 1 {
-						s = -h
-					}
-					y := append([]float64(nil), x...)
-					for i := range y {
-						y[i] += s * dirs[t/2][i]
-					}
-					vals[t], errs[t] = energy(y)
+		vals := make([]float64, 2*m+1)
+		err := Parallel(2*m+1, workers, progress, "  gradient: energy", func(t int) error {
+			y := append([]float64(nil), x...)
+			if t < 2*m {
+				s := h
+				if t%2 == 1 {
+					s = -h
 				}
-			}()
-		}
-		var e0 float64
-		var err0 error
-		wg.Add(1)
-		go func() { defer wg.Done(); e0, err0 = energy(x) }()
-		for t := 0; t < 2*m; t++ {
-			tasks <- t
-		}
-		close(tasks)
-		wg.Wait()
-		if err0 != nil {
-			return 0, nil, err0
+				for i := range y {
+					y[i] += s * dirs[t/2][i]
+				}
+			}
+			var err error
+			vals[t], err = energy(y)
+			return err
+		})
+		if err != nil {
+			return 0, nil, err
 		}
 		g := make([]float64, len(x))
 		for k := 0; k < m; k++ {
-			for s := 0; s < 2; s++ {
-				if errs[2*k+s] != nil {
-					return 0, nil, fmt.Errorf("displaced energy along direction %d: %w", k, errs[2*k+s])
-				}
-			}
 			d := (vals[2*k] - vals[2*k+1]) / (2 * h)
 			for i := range g {
 				g[i] += d * dirs[k][i]
 			}
 		}
-		return e0, g, nil
+		return vals[2*m], g, nil
 	}
+}
+
+// Parallel runs f(0) … f(n−1) on `workers` goroutines (at least one) and
+// returns the error of the lowest-numbered failure, naming it as the
+// displaced calculation t+1 of n. Each result must be written by f to its
+// own slot, so the outcome never depends on the worker count. progress
+// (nil: none) receives "<label> k of n done" as each finishes.
+func Parallel(n, workers int, progress io.Writer, label string, f func(t int) error) error {
+	if workers < 1 {
+		workers = 1
+	}
+	errs := make([]error, n)
+	tasks := make(chan int)
+	var mu sync.Mutex
+	done := 0
+	var wg sync.WaitGroup
+	for w := 0; w < workers; w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for t := range tasks {
+				errs[t] = f(t)
+				mu.Lock()
+				done++
+				if progress != nil {
+					fmt.Fprintf(progress, "%s %d of %d done\n", label, done, n)
+				}
+				mu.Unlock()
+			}
+		}()
+	}
+	for t := 0; t < n; t++ {
+		tasks <- t
+	}
+	close(tasks)
+	wg.Wait()
+	for t, err := range errs {
+		if err != nil {
+			return fmt.Errorf("displaced calculation %d of %d: %w", t+1, n, err)
+		}
+	}
+	return nil
 }
 
 // internalDirections is an orthonormal basis of the Cartesian directions

@@ -36,16 +36,25 @@ type Settings struct {
 	ProgressLabel      string
 	MinTrust, MaxTrust float64 // bohr (0 = 0.001 and 0.5)
 	ForceOnlyFraction  float64 // converged also when max force < this × MaxForce (0 = 0.01)
+	// RejectAbove: a step raising the energy by more than this (hartree) is
+	// rejected (0 = max(10 EnergyChange, 1e-9)).
+	RejectAbove float64
+	// Symmetrize, when set, is applied to every gradient and step (the
+	// projection onto the geometry's point group, engine/symmetry), so a
+	// symmetric start geometry stays symmetric.
+	Symmetrize func(v []float64) []float64
 }
 
-// Step is one point of the trajectory.
+// Step is one point of the trajectory: a geometry the optimisation
+// reached, or, Rejected, one it tried and went back from.
 type Step struct {
 	Energy, MaxForce, RMSForce, MaxStep float64
 	X                                   []float64
+	Rejected                            bool
 }
 
 // Result of an optimisation. When Converged is false the trajectory is
-// still complete; Final is the last geometry evaluated.
+// still complete; Final is the last geometry accepted.
 type Result struct {
 	Converged bool
 	Steps     []Step
@@ -74,6 +83,14 @@ func WithCoordinates(m *molecule.Molecule, x []float64) *molecule.Molecule {
 }
 
 // Minimize runs the optimisation from m's geometry.
+//
+// Each step is a rational-function step within the trust radius. A step
+// that raises the energy by more than RejectAbove (once the trust radius
+// can still shrink) is rejected: the optimisation goes back to the point
+// before it, keeps what the rejected gradient says about the curvature (the
+// BFGS update), quarters the trust radius and tries again. Accepted and
+// rejected steps are both kept in Result.Steps (Step.Rejected) and marked
+// in the progress lines; each counts towards MaxSteps.
 func Minimize(m *molecule.Molecule, eg EnergyGradient, s Settings) (*Result, error) {
 	if s.MaxSteps < 1 {
 		return nil, errors.New("optimisation needs max_steps ≥ 1")
@@ -96,6 +113,14 @@ func Minimize(m *molecule.Molecule, eg EnergyGradient, s Settings) (*Result, err
 	if fo <= 0 {
 		fo = 0.01
 	}
+	rejectAbove := s.RejectAbove
+	if rejectAbove <= 0 {
+		rejectAbove = math.Max(10*s.EnergyChange, 1e-9)
+	}
+	sym := s.Symmetrize
+	if sym == nil {
+		sym = func(v []float64) []float64 { return v }
+	}
 	x := Coordinates(m)
 	H := ModelHessian(m)
 	res := &Result{}
@@ -103,59 +128,68 @@ func Minimize(m *molecule.Molecule, eg EnergyGradient, s Settings) (*Result, err
 	if err != nil {
 		return nil, err
 	}
-	var prevE float64
-	var prevG, prevX []float64
-	var predicted float64
-	lastStep := math.Inf(1)
-	for it := 0; ; it++ {
-		P := projector(x)
-		gp := matVec(P, g)
-		maxF, rmsF := maxAbs(gp), rms(gp)
-		st := Step{Energy: e, MaxForce: maxF, RMSForce: rmsF, MaxStep: lastStep, X: append([]float64(nil), x...)}
-		if it == 0 {
-			st.MaxStep = 0
-		}
-		res.Steps = append(res.Steps, st)
+	g = sym(g)
+	logStep := func(it int, st Step, what string) {
 		if s.Progress != nil {
-			fmt.Fprintf(s.Progress, "%sopt step %3d  E = %.10f Eh  max|F| = %.2e  rms|F| = %.2e  step = %.2e bohr  trust = %.3f\n",
-				s.ProgressLabel, it, e, maxF, rmsF, st.MaxStep, trust)
+			fmt.Fprintf(s.Progress, "%sopt step %3d  E = %.10f Eh  max|F| = %.2e  rms|F| = %.2e  step = %.2e bohr  trust = %.3f  %s\n",
+				s.ProgressLabel, it, st.Energy, st.MaxForce, st.RMSForce, st.MaxStep, trust, what)
 		}
-		if it > 0 {
-			dE := e - prevE
-			conv := maxF < s.MaxForce && rmsF < s.RMSForce && lastStep < s.MaxStep && math.Abs(dE) < s.EnergyChange
-			if conv || maxF < fo*s.MaxForce {
-				res.Converged = true
-				res.Reason = "all criteria met"
-				if !conv {
-					res.Reason = "forces far below the limit"
-				}
-				break
-			}
-			// Trust-radius control from the ratio of actual to predicted change.
-			if predicted < 0 {
-				ratio := dE / predicted
-				switch {
-				case ratio > 0.75 && lastStep > 0.8*trust:
-					trust = math.Min(2*trust, maxT)
-				case ratio < 0.25:
-					trust = math.Max(trust/4, minT)
-				}
-			}
-			// BFGS update with the projected gradients.
-			bfgs(H, sub(x, prevX), sub(g, prevG))
-		}
-		if it >= s.MaxSteps {
+	}
+	P := projector(x)
+	gp := matVec(P, g)
+	start := Step{Energy: e, MaxForce: maxAbs(gp), RMSForce: rms(gp), X: append([]float64(nil), x...)}
+	res.Steps = append(res.Steps, start)
+	logStep(0, start, "start")
+	rejectedInARow := 0
+	for n := 1; ; n++ {
+		if n > s.MaxSteps {
 			res.Reason = fmt.Sprintf("not converged within %d steps", s.MaxSteps)
 			break
 		}
 		step, pred := rfoStep(P, H, gp, trust)
-		predicted = pred
-		prevE, prevG, prevX = e, g, x
-		x = add(x, step)
-		lastStep = maxAbs(step)
-		e, g, err = eg(x)
+		step = sym(step)
+		xn := add(x, step)
+		en, gn, err := eg(xn)
 		if err != nil {
-			return nil, fmt.Errorf("optimisation step %d: %w", it+1, err)
+			return nil, fmt.Errorf("optimisation step %d: %w", n, err)
+		}
+		gn = sym(gn)
+		Pn := projector(xn)
+		gpn := matVec(Pn, gn)
+		dE := en - e
+		st := Step{Energy: en, MaxForce: maxAbs(gpn), RMSForce: rms(gpn), MaxStep: maxAbs(step), X: append([]float64(nil), xn...)}
+		// The curvature seen along the step is true whether or not the step is kept.
+		bfgs(H, step, sub(gn, g))
+		if dE > rejectAbove && trust > minT && rejectedInARow < maxRejections {
+			st.Rejected = true
+			res.Steps = append(res.Steps, st)
+			trust = math.Max(minT, math.Min(trust, math.Sqrt(dotv(step, step)))/4)
+			logStep(n, st, fmt.Sprintf("rejected: the energy rose by %.1e Eh; back to the previous point", dE))
+			rejectedInARow++
+			continue
+		}
+		rejectedInARow = 0
+		// Trust-radius control from the ratio of actual to predicted change.
+		if pred < 0 {
+			ratio := dE / pred
+			switch {
+			case ratio > 0.75 && st.MaxStep > 0.8*trust:
+				trust = math.Min(2*trust, maxT)
+			case ratio < 0.25:
+				trust = math.Max(trust/4, minT)
+			}
+		}
+		x, e, g, P, gp = xn, en, gn, Pn, gpn
+		res.Steps = append(res.Steps, st)
+		logStep(n, st, "accepted")
+		conv := st.MaxForce < s.MaxForce && st.RMSForce < s.RMSForce && st.MaxStep < s.MaxStep && math.Abs(dE) < s.EnergyChange
+		if conv || st.MaxForce < fo*s.MaxForce {
+			res.Converged = true
+			res.Reason = "all criteria met"
+			if !conv {
+				res.Reason = "forces far below the limit"
+			}
+			break
 		}
 	}
 	res.Final = x
@@ -163,6 +197,10 @@ func Minimize(m *molecule.Molecule, eg EnergyGradient, s Settings) (*Result, err
 	res.Gradient = g
 	return res, nil
 }
+
+// maxRejections bounds the rejected steps in a row before a step is taken
+// whatever its energy (the energy may be too noisy to go down further).
+const maxRejections = 5
 
 // projector returns P = I − Σ t tᵀ over an orthonormal basis of the
 // translations and rotations of the geometry x.

@@ -2,6 +2,7 @@ package opt
 
 import (
 	"math"
+	"strings"
 	"testing"
 
 	"moltrail/engine/molecule"
@@ -95,7 +96,7 @@ func TestInternalFiniteDifferenceGradient(t *testing.T) {
 	md := model{bonds: [][2]int{{0, 1}, {0, 2}}, r0: 1.81, bends: [][3]int{{1, 0, 2}}, theta0: 104.5 * math.Pi / 180}
 	x := []float64{0, 0, 0.1, 0, 1.6, -1.0, 0.1, -1.5, -0.9}
 	_, full, _ := FiniteDifferenceGradient(md.energy, 1e-4, 2)(x)
-	_, in, err := InternalFiniteDifferenceGradient(md.energy, 1e-4, 2)(x)
+	_, in, err := InternalFiniteDifferenceGradient(md.energy, 1e-4, 2, nil)(x)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -109,5 +110,32 @@ func TestInternalFiniteDifferenceGradient(t *testing.T) {
 	}
 	if n := len(internalDirections([]float64{0, 0, 0, 0, 0, 2})); n != 1 {
 		t.Errorf("diatomic has %d internal directions, want 1", n)
+	}
+}
+
+// A step that overshoots into a steep wall raises the energy: it is
+// rejected, the optimisation goes back, learns the curvature and converges.
+func TestRejectedStep(t *testing.T) {
+	stiff := func(x []float64) (float64, error) {
+		r := dist(x, 0, 1)
+		return 10 * (r - 1.4) * (r - 1.4), nil
+	}
+	m := &molecule.Molecule{Atoms: []molecule.Atom{molecule.MustAtom("H", 0, 0, 0), molecule.MustAtom("H", 0, 0, 1.5)}}
+	var log strings.Builder
+	res, err := Minimize(m, FiniteDifferenceGradient(stiff, 1e-5, 1), Settings{MaxForce: 1e-6, RMSForce: 1e-6, MaxStep: 1e-5, EnergyChange: 1e-12, MaxSteps: 30, Progress: &log})
+	if err != nil || !res.Converged {
+		t.Fatalf("%v %+v", err, res)
+	}
+	if !res.Steps[1].Rejected || res.Steps[1].Energy <= res.Steps[0].Energy {
+		t.Errorf("first step: rejected %v, energy %g after %g", res.Steps[1].Rejected, res.Steps[1].Energy, res.Steps[0].Energy)
+	}
+	if last := res.Steps[len(res.Steps)-1]; last.Rejected {
+		t.Error("the trajectory ends on a rejected step")
+	}
+	if r := WithCoordinates(m, res.Final).Distance(0, 1); math.Abs(r-1.4) > 1e-6 {
+		t.Errorf("r = %g", r)
+	}
+	if !strings.Contains(log.String(), "rejected: the energy rose by") || !strings.Contains(log.String(), "accepted") || !strings.Contains(log.String(), "start") {
+		t.Errorf("log does not mark the steps:\n%s", log.String())
 	}
 }

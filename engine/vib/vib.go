@@ -28,7 +28,6 @@ import (
 	"io"
 	"math"
 	"sort"
-	"sync"
 
 	"gonum.org/v1/gonum/mat"
 
@@ -67,41 +66,7 @@ type Hessian struct {
 
 // work runs n displaced calculations on o.Workers goroutines, reporting each.
 func work(n int, o Options, what string, f func(t int) error) error {
-	workers := o.Workers
-	if workers < 1 {
-		workers = 1
-	}
-	errs := make([]error, n)
-	tasks := make(chan int)
-	var mu sync.Mutex
-	done := 0
-	var wg sync.WaitGroup
-	for w := 0; w < workers; w++ {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			for t := range tasks {
-				errs[t] = f(t)
-				mu.Lock()
-				done++
-				if o.Progress != nil {
-					fmt.Fprintf(o.Progress, "  hessian: %s %d of %d done\n", what, done, n)
-				}
-				mu.Unlock()
-			}
-		}()
-	}
-	for t := 0; t < n; t++ {
-		tasks <- t
-	}
-	close(tasks)
-	wg.Wait()
-	for t, err := range errs {
-		if err != nil {
-			return fmt.Errorf("displaced calculation %d of %d: %w", t+1, n, err)
-		}
-	}
-	return nil
+	return opt.Parallel(n, o.Workers, o.Progress, "  hessian: "+what, f)
 }
 
 func displaced(x, d []float64, s float64) []float64 {
