@@ -84,3 +84,32 @@ func TestFrequenciesAgainstPsi4(t *testing.T) {
 		})
 	}
 }
+
+// Kohn–Sham frequencies: the gradient route (analytic DFT gradients with
+// the grid-weight terms) and the energy route give the same wavenumbers
+// (internal consistency; no outside value).
+func TestDFTFrequencyRoutesAgree(t *testing.T) {
+	if testing.Short() {
+		t.Skip("DFT Hessians in -short mode")
+	}
+	m := waterMolecule()
+	var got [2][]float64
+	for i, f := range []FreqSettings{DefaultFreq, DefaultFreqEnergies} {
+		f := f
+		j, err := NewJob(Request{Molecule: m, Method: "svwn5", Basis: "sto-3g", Grid: "coarse", Task: "frequencies", Freq: &f})
+		if err != nil {
+			t.Fatal(err)
+		}
+		r, err := Run(j, RunOptions{})
+		if err != nil || r.Vibrations == nil {
+			t.Fatalf("%v %s", err, r.Error)
+		}
+		got[i] = r.Vibrations.WavenumbersPerCm
+	}
+	for k := range got[0] {
+		if d := math.Abs(got[0][k] - got[1][k]); d > 0.5 {
+			t.Errorf("mode %d: %.2f cm⁻¹ from gradients, %.2f from energies", k, got[0][k], got[1][k])
+		}
+	}
+	t.Logf("gradients %.2f, energies %.2f", got[0], got[1])
+}
