@@ -607,3 +607,69 @@ func TestParsePrinted(t *testing.T) {
 		t.Error("1.9.3 accepted")
 	}
 }
+
+// TestNotesTravel: notes follow their records through export and import;
+// a changed note and a note without its record are refused by line; a
+// second import finds them present.
+func TestNotesTravel(t *testing.T) {
+	src := openRW(t, t.TempDir())
+	defer src.Close()
+	a := fixture(t, 1, "hf", "sto-3g", nil, t0)
+	b := fixture(t, 2, "hf", "sto-3g", nil, t0.Add(time.Minute))
+	src.PutMany([]*Record{a, b})
+	if _, err := src.AddNote(a.ID, "first remark", t0.Add(time.Hour)); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := src.AddNote(a.ID, "second remark", t0.Add(2*time.Hour)); err != nil {
+		t.Fatal(err)
+	}
+	var buf bytes.Buffer
+	recs, notes, err := src.ExportNotes(&buf, Filter{})
+	if err != nil || recs != 2 || notes != 2 {
+		t.Fatalf("export: %d records %d notes %v", recs, notes, err)
+	}
+	lines := strings.Split(strings.TrimSpace(buf.String()), "\n")
+	if len(lines) != 4 || !strings.Contains(lines[1], `"first remark"`) || !strings.Contains(lines[2], `"second remark"`) {
+		t.Fatalf("notes should follow their record, oldest first:\n%s", buf.String())
+	}
+	dst := openRW(t, t.TempDir())
+	defer dst.Close()
+	rep, err := dst.Import(strings.NewReader(buf.String()), "x.jsonl", ImportPolicy{})
+	if err != nil || rep.Imported != 2 || rep.Notes != 2 || rep.NotesAdded != 2 || len(rep.Refused) != 0 {
+		t.Fatalf("import: %+v %v", rep, err)
+	}
+	want, _ := src.Notes(a.ID)
+	got, _ := dst.Notes(a.ID)
+	if fmt.Sprint(got) != fmt.Sprint(want) {
+		t.Errorf("imported notes %v, want %v", got, want)
+	}
+	if rep, _ := dst.Import(strings.NewReader(buf.String()), "x.jsonl", ImportPolicy{}); rep.NotesPresent != 2 || rep.NotesAdded != 0 || len(rep.Refused) != 0 {
+		t.Errorf("second import: %+v", rep)
+	}
+	if v, _ := dst.Verify(); v.Notes != 2 || len(v.Problems) != 0 {
+		t.Errorf("verify after import: %+v", v)
+	}
+	// Only b's line and a's notes: the notes have no record to go with.
+	orphan := lines[3] + "\n" + lines[1] + "\n" + strings.Replace(lines[2], "second remark", "altered remark", 1) + "\n"
+	third := openRW(t, t.TempDir())
+	defer third.Close()
+	if rep, err := third.Import(strings.NewReader(orphan), "y.jsonl", ImportPolicy{}); !errors.Is(err, ErrRefused) || rep.Imported != 0 || len(rep.Refused) != 2 {
+		t.Fatalf("all or nothing: a refused note should stop the import: %+v %v", rep, err)
+	}
+	rep, err = third.Import(strings.NewReader(orphan), "y.jsonl", ImportPolicy{Partial: true})
+	if err != nil || rep.Imported != 1 || len(rep.Refused) != 2 {
+		t.Fatalf("import of orphan and altered notes: %+v %v", rep, err)
+	}
+	for _, want := range []string{"y.jsonl:3: note", "y.jsonl:2: note"} {
+		found := false
+		for _, r := range rep.Refused {
+			found = found || strings.HasPrefix(r.Reason, want)
+		}
+		if !found {
+			t.Errorf("no refusal starts with %q: %+v", want, rep.Refused)
+		}
+	}
+	if !strings.Contains(fmt.Sprint(rep.Refused), "does not match the content") || !strings.Contains(fmt.Sprint(rep.Refused), "is neither in the archive nor accepted from the same file") {
+		t.Errorf("refusals should say why: %+v", rep.Refused)
+	}
+}

@@ -3,6 +3,7 @@ package archive
 import (
 	"bufio"
 	"bytes"
+	"encoding/json"
 	"errors"
 	"fmt"
 	"io"
@@ -37,11 +38,23 @@ func ValidateRecordJSON(b []byte) error {
 }
 
 // Export writes the stored bytes of every record matching f, one per line,
-// oldest first, and returns how many it wrote.
+// oldest first, each followed by the stored bytes of its notes (oldest
+// first), and returns how many records it wrote.
 func (s *Store) Export(w io.Writer, f Filter) (int, error) {
-	n := 0
+	n, _, err := s.ExportNotes(w, f)
+	return n, err
+}
+
+// ExportNotes is Export, also returning how many notes it wrote.
+func (s *Store) ExportNotes(w io.Writer, f Filter) (records, notes int, err error) {
 	bw := bufio.NewWriter(w)
-	err := s.db.View(func(txn *badger.Txn) error {
+	line := func(v []byte) error {
+		if _, err := bw.Write(v); err != nil {
+			return err
+		}
+		return bw.WriteByte('\n')
+	}
+	err = s.db.View(func(txn *badger.Txn) error {
 		ids, err := s.matchIDs(txn, f)
 		if err != nil {
 			return err
@@ -51,22 +64,28 @@ func (s *Store) Export(w io.Writer, f Filter) (int, error) {
 			if err != nil {
 				return s.damagedRecord(id)
 			}
-			if err := it.Value(func(v []byte) error {
-				if _, err := bw.Write(v); err != nil {
-					return err
-				}
-				return bw.WriteByte('\n')
-			}); err != nil {
+			if err := it.Value(line); err != nil {
 				return err
 			}
-			n++
+			records++
+			o := badger.DefaultIteratorOptions
+			o.Prefix = []byte(pNote + id + "/")
+			nt := txn.NewIterator(o)
+			for nt.Rewind(); nt.Valid(); nt.Next() {
+				if err := nt.Item().Value(line); err != nil {
+					nt.Close()
+					return err
+				}
+				notes++
+			}
+			nt.Close()
 		}
 		return nil
 	})
 	if err != nil {
-		return n, err
+		return records, notes, err
 	}
-	return n, bw.Flush()
+	return records, notes, bw.Flush()
 }
 
 // Refusal is one record Import would not take.
@@ -83,6 +102,10 @@ type ImportReport struct {
 	Imported int       `json:"imported"`
 	Skipped  int       `json:"skipped_already_present"`
 	Refused  []Refusal `json:"refused"`
+	// Notes read, stored and already present (a refused note is in Refused).
+	Notes        int `json:"notes_read"`
+	NotesAdded   int `json:"notes_imported"`
+	NotesPresent int `json:"notes_already_present"`
 }
 
 // ErrBadFile marks an import file that is not valid JSON lines of records.
@@ -111,46 +134,106 @@ func readLine(br *bufio.Reader, max int) ([]byte, error) {
 	}
 }
 
-// ReadRecords parses a JSON-lines record file: every non-empty line must be
-// one JSON document valid against the record schema and decodable as a
-// Record. Any such failure (including a truncated last line) is an error
-// wrapping ErrBadFile that names source and line; hashes are not checked
-// here. It returns the records with their line numbers.
+// ReadRecords parses a JSON-lines record file (see ReadExchange) and
+// returns its records with their line numbers; note lines are read and
+// checked but not returned.
 func ReadRecords(r io.Reader, source string) ([]*Record, []int, error) {
+	ex, err := ReadExchange(r, source)
+	if err != nil {
+		return nil, nil, err
+	}
+	return ex.Records, ex.Lines, nil
+}
+
+// Exchange is the content of a JSON-lines export file: records and the
+// notes that follow them, each with its line number.
+type Exchange struct {
+	Source    string
+	Records   []*Record
+	Lines     []int
+	Notes     []*Note
+	NoteLines []int
+}
+
+// Batch is the exchange's records and notes as a batch to import.
+func (ex *Exchange) Batch() Batch {
+	b := Batch{Source: ex.Source, Records: ex.Records, Lines: ex.Lines}
+	for i, n := range ex.Notes {
+		// Stored as the note's own encoding, as AddNote stores it.
+		v, _ := json.Marshal(n)
+		b.notes = append(b.notes, noteEntry{v: v, id: n.ID, record: n.RecordID, where: fmt.Sprintf("%s:%d", ex.Source, ex.NoteLines[i]), line: ex.NoteLines[i], note: n})
+	}
+	return b
+}
+
+// isNoteLine tells a note line from a record line by its second key
+// (record_id after id; a record has input_key), without decoding the rest.
+func isNoteLine(line []byte) bool {
+	dec := json.NewDecoder(bytes.NewReader(line))
+	for i := 0; i < 4; i++ {
+		tok, err := dec.Token()
+		if err != nil {
+			return false
+		}
+		if i == 3 {
+			return tok == "record_id"
+		}
+	}
+	return false
+}
+
+// ReadExchange parses a JSON-lines export file: every non-empty line must
+// be one JSON document, either a record (valid against the record schema
+// and decodable as a Record) or a note (decodable as a Note, in the note
+// format). Any such failure (including a truncated last line) is an error
+// wrapping ErrBadFile that names source and line; hashes are not checked
+// here.
+func ReadExchange(r io.Reader, source string) (*Exchange, error) {
 	br := bufio.NewReaderSize(r, 1<<20)
-	var recs []*Record
-	var lines []int
+	ex := &Exchange{Source: source}
 	ln := 0
 	for {
 		line, err := readLine(br, MaxLineBytes)
 		if errors.Is(err, errLineTooLong) {
-			return nil, nil, fmt.Errorf("%w: %s:%d: the line is longer than %s, more than any record needs", ErrBadFile, source, ln+1, readfile.Size(MaxLineBytes))
+			return nil, fmt.Errorf("%w: %s:%d: the line is longer than %s, more than any record needs", ErrBadFile, source, ln+1, readfile.Size(MaxLineBytes))
 		}
 		if len(line) > 0 {
 			ln++
 			complete := line[len(line)-1] == '\n'
 			line = bytes.TrimSpace(line)
-			if len(line) > 0 {
+			switch {
+			case len(line) == 0:
+			case isNoteLine(line):
+				n, nerr := decodeNote(line)
+				if nerr == nil && n.Format != NoteFormat {
+					nerr = fmt.Errorf("note_format is %q; this build reads %q", n.Format, NoteFormat)
+				}
+				if nerr != nil {
+					return nil, fmt.Errorf("%w: %s:%d: %v", ErrBadFile, source, ln, nerr)
+				}
+				ex.Notes = append(ex.Notes, n)
+				ex.NoteLines = append(ex.NoteLines, ln)
+			default:
 				if verr := ValidateRecordJSON(line); verr != nil {
 					if !complete {
-						return nil, nil, fmt.Errorf("%w: %s:%d: the last line is incomplete (file truncated?): %v", ErrBadFile, source, ln, verr)
+						return nil, fmt.Errorf("%w: %s:%d: the last line is incomplete (file truncated?): %v", ErrBadFile, source, ln, verr)
 					}
-					return nil, nil, fmt.Errorf("%w: %s:%d: %v", ErrBadFile, source, ln, verr)
+					return nil, fmt.Errorf("%w: %s:%d: %v", ErrBadFile, source, ln, verr)
 				}
 				rec, derr := Decode(line)
 				if derr != nil {
-					return nil, nil, fmt.Errorf("%w: %s:%d: %v", ErrBadFile, source, ln, derr)
+					return nil, fmt.Errorf("%w: %s:%d: %v", ErrBadFile, source, ln, derr)
 				}
-				recs = append(recs, rec)
-				lines = append(lines, ln)
+				ex.Records = append(ex.Records, rec)
+				ex.Lines = append(ex.Lines, ln)
 			}
 		}
 		if err == io.EOF {
 			break
 		}
 		if err != nil {
-			return nil, nil, fmt.Errorf("%s:%d: read error: %v", source, ln+1, err)
+			return nil, fmt.Errorf("%s:%d: read error: %v", source, ln+1, err)
 		}
 	}
-	return recs, lines, nil
+	return ex, nil
 }

@@ -43,6 +43,8 @@ type Batch struct {
 	// batch from another source (a merge of several archives), so that
 	// lineage may point at it.
 	Elsewhere func(id string) bool
+	// notes arriving with the records (an export file's; see Exchange).
+	notes []noteEntry
 }
 
 // where names record i of the batch in messages.
@@ -292,7 +294,7 @@ func Vet(s *Store, b Batch, p ImportPolicy) ([]Refusal, error) {
 // be nil) is called after each committed transaction. Import and merge
 // both come through here.
 func (s *Store) ImportRecords(b Batch, p ImportPolicy, progress func(done, total int)) (ImportReport, error) {
-	rep, good, err := vetBatch(s, b, p)
+	rep, good, notes, err := vetBatch(s, b, p)
 	if err != nil {
 		return rep, err
 	}
@@ -307,23 +309,74 @@ func (s *Store) ImportRecords(b Batch, p ImportPolicy, progress func(done, total
 			}
 		}
 	}
+	if err != nil || len(notes) == 0 {
+		return rep, err
+	}
+	added, present, nref, err := s.putNotes(notes)
+	rep.NotesAdded, rep.NotesPresent = added, present
+	rep.Refused = append(rep.Refused, nref...)
 	return rep, err
 }
 
 // vetBatch vets a batch for the archive s (nil: a new archive) and returns
-// the report so far and the records to store; under all or nothing a
-// refusal is an error wrapping ErrRefused.
-func vetBatch(s *Store, b Batch, p ImportPolicy) (ImportReport, []*Record, error) {
-	rep := ImportReport{Source: b.Source, Lines: len(b.Records), Refused: []Refusal{}}
+// the report so far and the records and notes to store; under all or
+// nothing a refusal is an error wrapping ErrRefused.
+func vetBatch(s *Store, b Batch, p ImportPolicy) (ImportReport, []*Record, []noteEntry, error) {
+	rep := ImportReport{Source: b.Source, Lines: len(b.Records), Refused: []Refusal{}, Notes: len(b.notes)}
 	refused, err := Vet(s, b, p)
 	if err != nil {
-		return rep, nil, err
+		return rep, nil, nil, err
 	}
 	rep.Refused = refused
 	if len(refused) > 0 && !p.Partial {
-		return rep, nil, refusedError(len(refused), len(b.Records))
+		return rep, nil, nil, refusedError(len(refused), len(b.Records))
 	}
-	return rep, acceptable(b.Records, refused), nil
+	good := acceptable(b.Records, refused)
+	notes, nref, err := vetNotes(s, b.notes, good)
+	if err != nil {
+		return rep, nil, nil, err
+	}
+	rep.Refused = append(rep.Refused, nref...)
+	if len(nref) > 0 && !p.Partial {
+		return rep, nil, nil, &sentinelError{ErrRefused, fmt.Sprintf("%d of %d note(s) refused, so nothing was imported (the import is all or nothing unless the acceptable records are asked for)", len(nref), len(b.notes))}
+	}
+	return rep, good, notes, nil
+}
+
+// vetNotes checks notes arriving with records: each must hash to its id,
+// carry a readable time, and belong to a record of the archive s (may be
+// nil) or of good. It returns the notes to store, with their keys.
+func vetNotes(s *Store, notes []noteEntry, good []*Record) ([]noteEntry, []Refusal, error) {
+	in := map[string]bool{}
+	for _, r := range good {
+		in[r.ID] = true
+	}
+	var ok []noteEntry
+	var refused []Refusal
+	for _, nk := range notes {
+		k, err := noteKey(nk.note)
+		if err == nil {
+			err = nk.note.check()
+		}
+		if err == nil && !in[nk.record] {
+			held := false
+			if s != nil {
+				if held, err = s.Has(nk.record); err != nil {
+					return nil, nil, err
+				}
+			}
+			if !held {
+				err = fmt.Errorf("its record %s… is neither in the archive nor accepted from the same file", short(nk.record))
+			}
+		}
+		if err != nil {
+			refused = append(refused, Refusal{Line: nk.line, ID: nk.id, Reason: fmt.Sprintf("%s: note %s… refused: %v", nk.where, short(nk.id), err)})
+			continue
+		}
+		nk.k = k
+		ok = append(ok, nk)
+	}
+	return ok, refused, nil
 }
 
 func refusedError(n, of int) error {
@@ -359,14 +412,14 @@ func ImportInto(dir string, b Batch, p ImportPolicy, o OpenOptions, progress fun
 	case err != nil:
 		return ImportReport{Source: b.Source, Lines: len(b.Records), Refused: []Refusal{}}, err
 	}
-	rep, good, err := vetBatch(st, b, p)
+	rep, good, notes, err := vetBatch(st, b, p)
 	if st != nil {
 		st.Close()
 	}
 	if err != nil {
 		return rep, err
 	}
-	if len(good) == 0 {
+	if len(good) == 0 && len(notes) == 0 {
 		return rep, nil
 	}
 	o.ReadOnly = false
@@ -377,8 +430,8 @@ func ImportInto(dir string, b Batch, p ImportPolicy, o OpenOptions, progress fun
 	defer w.Close()
 	// Vetted again for writing: another process may have changed the
 	// archive's trust list in between (lineage targets never go away).
-	wrep, err := w.ImportRecords(Batch{Source: b.Source, Records: good, Lines: linesOf(b, good)}, p, progress)
-	wrep.Lines = rep.Lines
+	wrep, err := w.ImportRecords(Batch{Source: b.Source, Records: good, Lines: linesOf(b, good), notes: notes}, p, progress)
+	wrep.Lines, wrep.Notes = rep.Lines, rep.Notes
 	wrep.Refused = append(rep.Refused, wrep.Refused...)
 	if err != nil {
 		return wrep, err
@@ -405,12 +458,13 @@ func linesOf(b Batch, sub []*Record) []int {
 	return out
 }
 
-// Import reads a JSON-lines record file (see ReadRecords) into the
-// archive, under policy p. A file that is not valid changes nothing.
+// Import reads a JSON-lines export file (see ReadExchange) into the
+// archive, records and notes, under policy p. A file that is not valid
+// changes nothing.
 func (s *Store) Import(r io.Reader, source string, p ImportPolicy) (ImportReport, error) {
-	recs, lines, err := ReadRecords(r, source)
+	ex, err := ReadExchange(r, source)
 	if err != nil {
 		return ImportReport{Source: source, Refused: []Refusal{}}, err
 	}
-	return s.ImportRecords(Batch{Source: source, Records: recs, Lines: lines}, p, nil)
+	return s.ImportRecords(ex.Batch(), p, nil)
 }

@@ -2,7 +2,6 @@ package archive
 
 import (
 	"bytes"
-	"errors"
 	"fmt"
 	"os"
 	"path/filepath"
@@ -264,8 +263,7 @@ func (s *Store) unlistedIDs(listed []string) []string {
 // mergeNotes copies the source's notes that s lacks, for records s holds.
 // A note already stored under its key with other bytes is refused.
 func (s *Store) mergeNotes(src *Store, ms *MergeSource) ([]Refusal, error) {
-	type kv struct{ k, v []byte }
-	var notes []kv
+	var notes []noteEntry
 	var refused []Refusal
 	err := src.db.View(func(txn *badger.Txn) error {
 		o := badger.DefaultIteratorOptions
@@ -292,56 +290,15 @@ func (s *Store) mergeNotes(src *Store, ms *MergeSource) ([]Refusal, error) {
 				refused = append(refused, Refusal{ID: nid, Reason: fmt.Sprintf("%s: note %s… refused: %v", src.dir, short(nid), err)})
 				continue
 			}
-			notes = append(notes, kv{k, v})
+			notes = append(notes, noteEntry{k: k, v: v, id: nid, record: string(rid), where: src.dir})
 		}
 		return nil
 	})
 	if err != nil {
 		return refused, fmt.Errorf("merge source %s: notes: %v", src.dir, err)
 	}
-	for len(notes) > 0 {
-		txn := s.db.NewTransaction(true)
-		n := 0
-		for ; n < len(notes); n++ {
-			nk := notes[n]
-			rid, _, _ := bytes.Cut(nk.k[len(pNote):], []byte("/"))
-			if _, err := txn.Get([]byte(pRecord + string(rid))); errors.Is(err, badger.ErrKeyNotFound) {
-				_, nid, _ := tailID(nk.k)
-				refused = append(refused, Refusal{ID: nid, Reason: fmt.Sprintf("%s: note %s… refused: its record %s… is not in the target archive", src.dir, short(nid), short(string(rid)))})
-				continue
-			} else if err != nil {
-				txn.Discard()
-				return refused, err
-			}
-			if item, err := txn.Get(nk.k); err == nil {
-				same := false
-				item.Value(func(v []byte) error { same = bytes.Equal(v, nk.v); return nil })
-				if !same {
-					_, nid, _ := tailID(nk.k)
-					refused = append(refused, Refusal{ID: nid, Reason: fmt.Sprintf("%s: note %s… refused: the target holds a different note under its key", src.dir, short(nid))})
-				} else {
-					ms.NotesPresent++
-				}
-				continue
-			} else if !errors.Is(err, badger.ErrKeyNotFound) {
-				txn.Discard()
-				return refused, err
-			}
-			if err := txn.Set(nk.k, nk.v); errors.Is(err, badger.ErrTxnTooBig) && n > 0 {
-				break
-			} else if err != nil {
-				txn.Discard()
-				return refused, err
-			}
-			ms.NotesNew++
-		}
-		if testHoldCommit > 0 {
-			time.Sleep(testHoldCommit)
-		}
-		if err := txn.Commit(); err != nil {
-			return refused, fmt.Errorf("archive %s: write failed: %v", s.dir, err)
-		}
-		notes = notes[n:]
-	}
-	return refused, nil
+	added, present, nr, err := s.putNotes(notes)
+	ms.NotesNew += added
+	ms.NotesPresent += present
+	return append(refused, nr...), err
 }

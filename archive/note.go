@@ -116,3 +116,73 @@ func (s *Store) Notes(recordID string) ([]Note, error) {
 	})
 	return out, err
 }
+
+// noteKey is the key a note is stored under (see keys.go).
+func noteKey(n *Note) ([]byte, error) {
+	t, err := time.Parse(time.RFC3339Nano, n.TimeUTC)
+	if err != nil {
+		return nil, fmt.Errorf("time_utc %q is not an RFC 3339 time", n.TimeUTC)
+	}
+	return []byte(pNote + n.RecordID + "/" + tsHex(t) + n.ID), nil
+}
+
+// noteEntry is a checked note to store: its key and bytes, and where it
+// was read (a file and line, or an archive) for the messages.
+type noteEntry struct {
+	k, v       []byte
+	id, record string
+	where      string
+	line       int
+	note       *Note // as decoded, for notes read from a file
+}
+
+// putNotes stores notes for records s holds, in as few transactions as
+// fit. A note whose record is absent, or whose key holds other bytes, is
+// refused; one already stored is counted as present.
+func (s *Store) putNotes(notes []noteEntry) (added, present int, refused []Refusal, err error) {
+	refuse := func(nk noteEntry, why string) {
+		refused = append(refused, Refusal{Line: nk.line, ID: nk.id, Reason: fmt.Sprintf("%s: note %s… refused: %s", nk.where, short(nk.id), why)})
+	}
+	for len(notes) > 0 {
+		txn := s.db.NewTransaction(true)
+		n := 0
+		for ; n < len(notes); n++ {
+			nk := notes[n]
+			if _, err := txn.Get([]byte(pRecord + nk.record)); errors.Is(err, badger.ErrKeyNotFound) {
+				refuse(nk, fmt.Sprintf("its record %s… is not in the target archive", short(nk.record)))
+				continue
+			} else if err != nil {
+				txn.Discard()
+				return added, present, refused, err
+			}
+			if item, err := txn.Get(nk.k); err == nil {
+				same := false
+				item.Value(func(v []byte) error { same = bytes.Equal(v, nk.v); return nil })
+				if !same {
+					refuse(nk, "the target holds a different note under its key")
+				} else {
+					present++
+				}
+				continue
+			} else if !errors.Is(err, badger.ErrKeyNotFound) {
+				txn.Discard()
+				return added, present, refused, err
+			}
+			if err := txn.Set(nk.k, nk.v); errors.Is(err, badger.ErrTxnTooBig) && n > 0 {
+				break
+			} else if err != nil {
+				txn.Discard()
+				return added, present, refused, err
+			}
+			added++
+		}
+		if testHoldCommit > 0 {
+			time.Sleep(testHoldCommit)
+		}
+		if err := txn.Commit(); err != nil {
+			return added, present, refused, fmt.Errorf("archive %s: write failed: %v", s.dir, err)
+		}
+		notes = notes[n:]
+	}
+	return added, present, refused, nil
+}

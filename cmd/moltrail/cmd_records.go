@@ -16,8 +16,8 @@ func init() {
 	register(Command{Name: "list", Summary: "stored records, one line each, or a molecule × level overview (filters: molecule, formula, method, basis, task, tag, status, time)", Run: cmdList})
 	register(Command{Name: "show", Summary: "one record, whole (ID or a unique prefix)", Run: cmdShow})
 	register(Command{Name: "verify", Summary: "check every record, index entry and signature; names each record that is lost, altered or signed by an untrusted key", Run: cmdVerify})
-	register(Command{Name: "export", Summary: "write records (all or filtered) as JSON lines", Run: cmdExport})
-	register(Command{Name: "import", Summary: "read JSON-lines records: checked as run would, hash- and signature-checked, all or nothing, never overwriting", Run: cmdImport})
+	register(Command{Name: "export", Summary: "write records (all or filtered) and their notes as JSON lines", Run: cmdExport})
+	register(Command{Name: "import", Summary: "read JSON-lines records and notes: checked as run would, hash- and signature-checked, all or nothing, never overwriting", Run: cmdImport})
 	register(Command{Name: "note", Summary: "attach a remark to a record (the record itself never changes)", Run: cmdNote})
 }
 
@@ -338,18 +338,18 @@ func cmdExport(args []string, stdout, stderr io.Writer) int {
 	}
 	defer st.Close()
 	if *out == "-" {
-		n, err := st.Export(stdout, f)
+		n, notes, err := st.ExportNotes(stdout, f)
 		if err != nil {
 			return fail(stderr, exitFailed, "export", err)
 		}
-		fmt.Fprintf(stderr, "moltrail export: %d record(s)\n", n)
+		fmt.Fprintf(stderr, "moltrail export: %d record(s) and %d note(s)\n", n, notes)
 		return exitOK
 	}
 	tmp, err := createAtomic(*out)
 	if err != nil {
 		return fail(stderr, exitUsage, "export", fmt.Errorf("--out %s: %v", *out, err))
 	}
-	n, err := st.Export(tmp, f)
+	n, notes, err := st.ExportNotes(tmp, f)
 	if err != nil {
 		tmp.Abort()
 		return fail(stderr, exitFailed, "export", err)
@@ -358,9 +358,9 @@ func cmdExport(args []string, stdout, stderr io.Writer) int {
 		return fail(stderr, exitFailed, "export", fmt.Errorf("--out %s: %v", *out, err))
 	}
 	if *asJSON {
-		printJSON(stdout, map[string]any{"out": *out, "records": n})
+		printJSON(stdout, map[string]any{"out": *out, "records": n, "notes": notes})
 	} else {
-		fmt.Fprintf(stdout, "wrote %d record(s) to %s\n", n, *out)
+		fmt.Fprintf(stdout, "wrote %d record(s) and their %d note(s) to %s\n", n, notes, *out)
 	}
 	return exitOK
 }
@@ -388,11 +388,11 @@ func cmdImport(args []string, stdout, stderr io.Writer) int {
 	}
 	defer fh.Close()
 	// Read and validate the whole file before opening the archive for writing.
-	recs, lines, err := archive.ReadRecords(fh, pos[0])
+	ex, err := archive.ReadExchange(fh, pos[0])
 	if err != nil {
 		return fail(stderr, exitUsage, "import", fmt.Errorf("%v; nothing was imported", err))
 	}
-	batch := archive.Batch{Source: pos[0], Records: recs, Lines: lines}
+	batch := ex.Batch()
 	policy := archive.ImportPolicy{Partial: *partial, TrustedOnly: *trustedOnly}
 	rep, err := archive.ImportInto(af.path(), batch, policy, archive.OpenOptions{Wait: af.waitOrNone(), Log: stderr}, func(done, total int) {
 		fmt.Fprintf(stderr, "moltrail import: %d of %d records written\n", done, total)
@@ -416,8 +416,8 @@ func cmdImport(args []string, stdout, stderr io.Writer) int {
 	if *asJSON {
 		printJSON(stdout, rep)
 	} else {
-		fmt.Fprintf(stdout, "%s: %d record(s) read, %d imported, %d already present (skipped), %d refused\n",
-			pos[0], rep.Lines, rep.Imported, rep.Skipped, len(rep.Refused))
+		fmt.Fprintf(stdout, "%s: %d record(s) read, %d imported, %d already present (skipped); %d note(s) read, %d imported, %d already present; %d refused\n",
+			pos[0], rep.Lines, rep.Imported, rep.Skipped, rep.Notes, rep.NotesAdded, rep.NotesPresent, len(rep.Refused))
 	}
 	if len(rep.Refused) > 0 {
 		return exitFailed

@@ -770,3 +770,28 @@ func TestChemistOutputs(t *testing.T) {
 		}
 	})
 }
+
+// TestNotesTravelWithExport: a note added to a record comes along when the
+// archive is exported and imported elsewhere, and shows there.
+func TestNotesTravelWithExport(t *testing.T) {
+	f := newContractFixture(t)
+	if r := call("note", "--archive", f.arch, f.ids[0], "geometry", "checked", "by", "hand"); r.code != 0 {
+		t.Fatal(r.stderr)
+	}
+	out := filepath.Join(f.dir, "all.jsonl")
+	ex := call("export", "--archive", f.arch, "--out", out)
+	if ex.code != 0 || !strings.Contains(ex.stdout, "wrote 2 record(s) and their 1 note(s)") {
+		t.Fatalf("export: exit %d %q %s", ex.code, ex.stdout, ex.stderr)
+	}
+	other := filepath.Join(f.dir, "other")
+	im := call("import", "--archive", other, out)
+	if im.code != 0 || !strings.Contains(im.stdout, "1 note(s) read, 1 imported") {
+		t.Fatalf("import: exit %d %q %s", im.code, im.stdout, im.stderr)
+	}
+	if show := call("show", "--archive", other, f.ids[0]).stdout; !strings.Contains(show, "geometry checked by hand") {
+		t.Errorf("the note did not travel:\n%s", show)
+	}
+	if v := call("verify", "--archive", other).stdout; !strings.Contains(v, "2 record(s) and 1 note(s)") {
+		t.Errorf("verify: %s", v)
+	}
+}
