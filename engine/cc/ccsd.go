@@ -8,6 +8,8 @@ import (
 
 	"gonum.org/v1/gonum/blas"
 	"gonum.org/v1/gonum/mat"
+
+	"moltrail/engine/internal/gemm"
 )
 
 // Defaults of Options.
@@ -159,6 +161,8 @@ type problem struct {
 	ovovKAIC  []float64 // (kc|ia) as [k][a][i][c], also (lc|kd) as [l][d][k][c]
 	ovvvKACD  []float64 // (kd|ac) as [k][a][c][d]
 	ovvvCIAB  []float64 // (ia|cb) as [c][i][a][b]
+	ovvvF     []float64 // (ia|bf) as [i][f][(a,b)], (a,b) padded to vvPad (for (T))
+	vvPad     int
 	q         []float64 // 2(kd|ac) − (kc|ad) as [k][c][d][a]
 	r         []float64 // 2(lc|ki) − (kc|li) as [i][k][l][c]
 }
@@ -199,6 +203,16 @@ func newProblem(src Source, eps []float64, nocc, threads int) *problem {
 	ovvvD := [4]int{o, v, v, v}
 	p.ovvvKACD = perm4(nil, p.ovvv, ovvvD, [4]int{0, 2, 3, 1})
 	p.ovvvCIAB = perm4(nil, p.ovvv, ovvvD, [4]int{2, 0, 1, 3})
+	p.vvPad = gemm.RoundUp(v*v, gemm.Rows)
+	p.ovvvF = make([]float64, o*v*p.vvPad)
+	for i := 0; i < o; i++ {
+		for ab := 0; ab < v*v; ab++ {
+			src := p.ovvv[(i*v*v+ab)*v:]
+			for f := 0; f < v; f++ {
+				p.ovvvF[(i*v+f)*p.vvPad+ab] = src[f]
+			}
+		}
+	}
 	p.q = perm4(nil, p.ovvv, ovvvD, [4]int{0, 3, 1, 2})
 	for i := range p.q {
 		p.q[i] *= 2
@@ -268,16 +282,16 @@ func (p *problem) update(t1, t2 []float64) ([]float64, []float64) {
 	// One-body intermediates (the Fock matrix is diagonal: its diagonal
 	// is moved to the denominators, so F and L below hold corrections only).
 	foo := make([]float64, oo) // [k][i]
-	mm(blas.NoTrans, blas.Trans, o, o, o*vv, 1, p.lovovKLCD, o*vv, tau, o*vv, 0, foo, o)
+	p.mm(blas.NoTrans, blas.Trans, o, o, o*vv, 1, p.lovovKLCD, o*vv, tau, o*vv, 0, foo, o)
 	fvv := make([]float64, vv) // [a][c]
 	tauAKLD := perm4(nil, tau, nT, [4]int{2, 0, 1, 3})
-	mm(blas.NoTrans, blas.Trans, v, v, oo*v, -1, tauAKLD, oo*v, p.lovovCKLD, oo*v, 0, fvv, v)
+	p.mm(blas.NoTrans, blas.Trans, v, v, oo*v, -1, tauAKLD, oo*v, p.lovovCKLD, oo*v, 0, fvv, v)
 	fov := make([]float64, ov) // [k][c]
-	mm(blas.NoTrans, blas.NoTrans, ov, 1, ov, 1, p.lovov, ov, t1, 1, 0, fov, 1)
+	p.mm(blas.NoTrans, blas.NoTrans, ov, 1, ov, 1, p.lovov, ov, t1, 1, 0, fov, 1)
 	loo := append([]float64(nil), foo...)
 	{
 		y := make([]float64, oo) // [i][k]
-		mm(blas.NoTrans, blas.NoTrans, oo, 1, ov, 1, p.r, ov, t1, 1, 0, y, 1)
+		p.mm(blas.NoTrans, blas.NoTrans, oo, 1, ov, 1, p.r, ov, t1, 1, 0, y, 1)
 		for i := 0; i < o; i++ {
 			for k := 0; k < o; k++ {
 				loo[k*o+i] += y[i*o+k]
@@ -302,8 +316,8 @@ func (p *problem) update(t1, t2 []float64) ([]float64, []float64) {
 
 	// T1.
 	n1 := make([]float64, ov)
-	mm(blas.NoTrans, blas.Trans, o, v, v, 1, t1, v, lvv, v, 0, n1, v)
-	mm(blas.Trans, blas.NoTrans, o, v, o, -1, loo, o, t1, v, 1, n1, v)
+	p.mm(blas.NoTrans, blas.Trans, o, v, v, 1, t1, v, lvv, v, 0, n1, v)
+	p.mm(blas.Trans, blas.NoTrans, o, v, o, -1, loo, o, t1, v, 1, n1, v)
 	for i := 0; i < o; i++ {
 		for a := 0; a < v; a++ {
 			var s float64
@@ -317,41 +331,41 @@ func (p *problem) update(t1, t2 []float64) ([]float64, []float64) {
 			n1[i*v+a] += s
 		}
 	}
-	mm(blas.NoTrans, blas.NoTrans, o, v, ov*v, 1, t2, ov*v, p.q, v, 1, n1, v)
+	p.mm(blas.NoTrans, blas.NoTrans, o, v, ov*v, 1, t2, ov*v, p.q, v, 1, n1, v)
 	t2KLCA := perm4(nil, t2, nT, [4]int{0, 1, 3, 2})
-	mm(blas.NoTrans, blas.NoTrans, o, v, oo*v, -1, p.r, oo*v, t2KLCA, v, 1, n1, v)
+	p.mm(blas.NoTrans, blas.NoTrans, o, v, oo*v, -1, p.r, oo*v, t2KLCA, v, 1, n1, v)
 
 	// T2.
 	n2 := perm4(nil, p.ovov, [4]int{o, v, o, v}, [4]int{0, 2, 1, 3})
 	var x []float64
 	// P[Σ_c (ia|cb) t_j^c]
 	s1 := make([]float64, o*ov*v) // [j][i][a][b]
-	mm(blas.NoTrans, blas.NoTrans, o, ov*v, v, 1, t1, v, p.ovvvCIAB, ov*v, 0, s1, ov*v)
+	p.mm(blas.NoTrans, blas.NoTrans, o, ov*v, v, 1, t1, v, p.ovvvCIAB, ov*v, 0, s1, ov*v)
 	x = perm4(x, s1, nT, [4]int{1, 0, 2, 3})
 	addSym(n2, 1, x, o, v)
 	// −P[Σ_kc (ki|bc) t_k^a t_j^c]
 	z1 := make([]float64, oo*v*o) // [k][i][b][j]
-	mm(blas.NoTrans, blas.Trans, oo*v, o, v, 1, p.oovv, v, t1, v, 0, z1, o)
+	p.mm(blas.NoTrans, blas.Trans, oo*v, o, v, 1, p.oovv, v, t1, v, 0, z1, o)
 	y1 := make([]float64, v*o*v*o) // [a][i][b][j]
-	mm(blas.Trans, blas.NoTrans, v, o*v*o, o, 1, t1, v, z1, o*v*o, 0, y1, o*v*o)
+	p.mm(blas.Trans, blas.NoTrans, v, o*v*o, o, 1, t1, v, z1, o*v*o, 0, y1, o*v*o)
 	x = perm4(x, y1, [4]int{v, o, v, o}, [4]int{1, 3, 0, 2})
 	addSym(n2, -1, x, o, v)
 	// −P[Σ_k (ia|jk) t_k^b]
 	s2 := make([]float64, ov*o*v) // [i][a][j][b]
-	mm(blas.NoTrans, blas.NoTrans, ov*o, v, o, 1, p.ovoo, o, t1, v, 0, s2, v)
+	p.mm(blas.NoTrans, blas.NoTrans, ov*o, v, o, 1, p.ovoo, o, t1, v, 0, s2, v)
 	x = perm4(x, s2, [4]int{o, v, o, v}, [4]int{0, 2, 1, 3})
 	addSym(n2, -1, x, o, v)
 	// −P[Σ_kc (kc|ai) t_j^c t_k^b]
 	z2 := make([]float64, ov*o*o) // [k][a][i][j]
-	mm(blas.NoTrans, blas.Trans, ov*o, o, v, 1, p.ovovKAIC, v, t1, v, 0, z2, o)
+	p.mm(blas.NoTrans, blas.Trans, ov*o, o, v, 1, p.ovovKAIC, v, t1, v, 0, z2, o)
 	y2 := make([]float64, v*oo*v) // [a][i][j][b]
-	mm(blas.Trans, blas.NoTrans, v*oo, v, o, 1, z2, v*oo, t1, v, 0, y2, v)
+	p.mm(blas.Trans, blas.NoTrans, v*oo, v, o, 1, z2, v*oo, t1, v, 0, y2, v)
 	x = perm4(x, y2, [4]int{v, o, o, v}, [4]int{1, 2, 0, 3})
 	addSym(n2, -1, x, o, v)
 
 	// Woooo: W[k][l][i][j]
 	w4 := make([]float64, oo*oo)
-	mm(blas.NoTrans, blas.Trans, oo, oo, vv, 1, p.ovovKLCD, vv, tau, vv, 0, w4, oo)
+	p.mm(blas.NoTrans, blas.Trans, oo, oo, vv, 1, p.ovovKLCD, vv, tau, vv, 0, w4, oo)
 	for k := 0; k < o; k++ {
 		for l := 0; l < o; l++ {
 			for i := 0; i < o; i++ {
@@ -365,26 +379,26 @@ func (p *problem) update(t1, t2 []float64) ([]float64, []float64) {
 			}
 		}
 	}
-	mm(blas.Trans, blas.NoTrans, oo, vv, oo, 1, w4, oo, tau, vv, 1, n2, vv)
+	p.mm(blas.Trans, blas.NoTrans, oo, vv, oo, 1, w4, oo, tau, vv, 1, n2, vv)
 
 	// Wvvvv: the ladder Σ_cd (ac|bd) τ_ij^cd and its t1 parts through
 	// Y[ij][ka] = Σ_cd (kd|ac) τ_ij^cd.
-	mm(blas.NoTrans, blas.Trans, oo, vv, vv, 1, tau, vv, p.vvvv, vv, 1, n2, vv)
+	p.mm(blas.NoTrans, blas.Trans, oo, vv, vv, 1, tau, vv, p.vvvv, vv, 1, n2, vv)
 	yv := make([]float64, oo*ov)
-	mm(blas.NoTrans, blas.Trans, oo, ov, vv, 1, tau, vv, p.ovvvKACD, vv, 0, yv, ov)
+	p.mm(blas.NoTrans, blas.Trans, oo, ov, vv, 1, tau, vv, p.ovvvKACD, vv, 0, yv, ov)
 	zv := make([]float64, oo*vv)
 	for ij := 0; ij < oo; ij++ {
-		mm(blas.Trans, blas.NoTrans, v, v, o, 1, yv[ij*ov:], v, t1, v, 0, zv[ij*vv:], v)
+		p.mm(blas.Trans, blas.NoTrans, v, v, o, 1, yv[ij*ov:], v, t1, v, 0, zv[ij*vv:], v)
 	}
 	addSym(n2, -1, zv, o, v)
 
 	// Lvv and Loo.
 	tmp := make([]float64, oo*vv)
 	for ij := 0; ij < oo; ij++ {
-		mm(blas.NoTrans, blas.NoTrans, v, v, v, 1, lvv, v, t2[ij*vv:], v, 0, tmp[ij*vv:], v)
+		p.mm(blas.NoTrans, blas.NoTrans, v, v, v, 1, lvv, v, t2[ij*vv:], v, 0, tmp[ij*vv:], v)
 	}
 	addSym(n2, 1, tmp, o, v)
-	mm(blas.Trans, blas.NoTrans, o, ov*v, o, 1, loo, o, t2, ov*v, 0, tmp, ov*v)
+	p.mm(blas.Trans, blas.NoTrans, o, ov*v, o, 1, loo, o, t2, ov*v, 0, tmp, ov*v)
 	addSym(n2, -1, tmp, o, v)
 
 	// Wvoov (wa) and Wvovo (wb), both [(i,a)][(k,c)].
@@ -394,9 +408,9 @@ func (p *problem) update(t1, t2 []float64) ([]float64, []float64) {
 	wb := make([]float64, ov*ov)
 	{
 		xa := make([]float64, o*ov*v) // [i][k][c][a]
-		mm(blas.NoTrans, blas.Trans, o, ov*v, v, 1, t1, v, p.ovvv, v, 0, xa, ov*v)
+		p.mm(blas.NoTrans, blas.Trans, o, ov*v, v, 1, t1, v, p.ovvv, v, 0, xa, ov*v)
 		addPerm4(wa, 1, xa, [4]int{o, o, v, v}, [4]int{0, 3, 1, 2})
-		mm(blas.NoTrans, blas.Trans, o, ov*v, v, 1, t1, v, p.ovvvKACD, v, 0, xa, ov*v) // [i][k][a][c]
+		p.mm(blas.NoTrans, blas.Trans, o, ov*v, v, 1, t1, v, p.ovvvKACD, v, 0, xa, ov*v) // [i][k][a][c]
 		addPerm4(wb, 1, xa, [4]int{o, o, v, v}, [4]int{0, 2, 1, 3})
 	}
 	for i := 0; i < o; i++ {
@@ -433,19 +447,19 @@ func (p *problem) update(t1, t2 []float64) ([]float64, []float64) {
 			}
 		}
 	}
-	mm(blas.NoTrans, blas.NoTrans, ov, ov, ov, 1, u, ov, p.ovov, ov, 1, wa, ov)
-	mm(blas.NoTrans, blas.NoTrans, ov, ov, ov, -0.5, t2ia, ov, p.ovovKAIC, ov, 1, wa, ov)
-	mm(blas.NoTrans, blas.NoTrans, ov, ov, ov, -1, u2, ov, p.ovovKAIC, ov, 1, wb, ov)
+	p.mm(blas.NoTrans, blas.NoTrans, ov, ov, ov, 1, u, ov, p.ovov, ov, 1, wa, ov)
+	p.mm(blas.NoTrans, blas.NoTrans, ov, ov, ov, -0.5, t2ia, ov, p.ovovKAIC, ov, 1, wa, ov)
+	p.mm(blas.NoTrans, blas.NoTrans, ov, ov, ov, -1, u2, ov, p.ovovKAIC, ov, 1, wb, ov)
 	// P[(2 Wvoov − Wvovo)·t − Wvoov·t'] − P[Wvovo·t'']
 	for i := range u {
 		u[i] = 2*wa[i] - wb[i]
 	}
 	r := make([]float64, ov*ov) // [i][a][j][b]
-	mm(blas.NoTrans, blas.NoTrans, ov, ov, ov, 1, u, ov, t2ia, ov, 0, r, ov)
-	mm(blas.NoTrans, blas.NoTrans, ov, ov, ov, -1, wa, ov, t2iaSw, ov, 1, r, ov)
+	p.mm(blas.NoTrans, blas.NoTrans, ov, ov, ov, 1, u, ov, t2ia, ov, 0, r, ov)
+	p.mm(blas.NoTrans, blas.NoTrans, ov, ov, ov, -1, wa, ov, t2iaSw, ov, 1, r, ov)
 	x = perm4(x, r, [4]int{o, v, o, v}, [4]int{0, 2, 1, 3})
 	addSym(n2, 1, x, o, v)
-	mm(blas.NoTrans, blas.NoTrans, ov, ov, ov, 1, wb, ov, t2iaSw, ov, 0, r, ov) // [i][b][j][a]
+	p.mm(blas.NoTrans, blas.NoTrans, ov, ov, ov, 1, wb, ov, t2iaSw, ov, 0, r, ov) // [i][b][j][a]
 	x = perm4(x, r, [4]int{o, v, o, v}, [4]int{0, 2, 3, 1})
 	addSym(n2, -1, x, o, v)
 
@@ -467,6 +481,11 @@ func (p *problem) update(t1, t2 []float64) ([]float64, []float64) {
 		}
 	}
 	return n1, n2
+}
+
+// mm is a matrix product on the problem's threads.
+func (p *problem) mm(tA, tB blas.Transpose, m, n, k int, alpha float64, a []float64, lda int, b []float64, ldb int, beta float64, c []float64, ldc int) {
+	mmT(p.threads, tA, tB, m, n, k, alpha, a, lda, b, ldb, beta, c, ldc)
 }
 
 // addSym adds α (X + Xᵀ) to n2, where Xᵀ[i][j][a][b] = X[j][i][b][a].

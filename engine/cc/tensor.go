@@ -3,14 +3,109 @@ package cc
 import (
 	"gonum.org/v1/gonum/blas"
 	"gonum.org/v1/gonum/blas/blas64"
+
+	"moltrail/engine/internal/gemm"
 )
 
 // mm is C = α op(A) op(B) + β C for row-major A, B, C with leading
-// dimensions lda, ldb, ldc; op(A) is m × k, op(B) is k × n.
+// dimensions lda, ldb, ldc; op(A) is m × k, op(B) is k × n; one thread.
 func mm(tA, tB blas.Transpose, m, n, k int, alpha float64, a []float64, lda int, b []float64, ldb int, beta float64, c []float64, ldc int) {
+	mmT(1, tA, tB, m, n, k, alpha, a, lda, b, ldb, beta, c, ldc)
+}
+
+// Blocking of the large products: k in chunks of kChunk, C in column
+// strips of about stripValues/m columns (a multiple of 16).
+const (
+	kChunk      = 512
+	stripValues = 1 << 20
+	// products with a dimension below smallDim go to gonum
+	smallDim = 32
+)
+
+// mmT is mm on up to threads workers. Large products use the
+// register-blocked kernels of engine/internal/gemm (A repacked
+// column-major and B row-major where the layout asks for it, padded to the
+// kernels' block); each column strip of C is computed by one worker as
+// β C + α Σ_chunks (chunk products in k order), so the bits do not depend
+// on the number of threads.
+func mmT(threads int, tA, tB blas.Transpose, m, n, k int, alpha float64, a []float64, lda int, b []float64, ldb int, beta float64, c []float64, ldc int) {
 	if m == 0 || n == 0 {
 		return
 	}
+	if m < smallDim || n < smallDim || k < smallDim {
+		mmSmall(tA, tB, m, n, k, alpha, a, lda, b, ldb, beta, c, ldc)
+		return
+	}
+	mp, np := gemm.RoundUp(m, gemm.Rows), gemm.RoundUp(n, 2*gemm.Cols)
+	acm, ldA := a, lda
+	if tA != blas.Trans || m != mp {
+		acm, ldA = make([]float64, k*mp), mp
+		if tA == blas.Trans {
+			for kk := 0; kk < k; kk++ {
+				copy(acm[kk*mp:kk*mp+m], a[kk*lda:kk*lda+m])
+			}
+		} else {
+			for i := 0; i < m; i++ {
+				row := a[i*lda : i*lda+k]
+				for kk, x := range row {
+					acm[kk*mp+i] = x
+				}
+			}
+		}
+	}
+	brm, ldB := b, ldb
+	if tB != blas.NoTrans || n != np {
+		brm, ldB = make([]float64, k*np), np
+		if tB == blas.NoTrans {
+			for kk := 0; kk < k; kk++ {
+				copy(brm[kk*np:kk*np+n], b[kk*ldb:kk*ldb+n])
+			}
+		} else {
+			for j := 0; j < n; j++ {
+				row := b[j*ldb : j*ldb+k]
+				for kk, x := range row {
+					brm[kk*np+j] = x
+				}
+			}
+		}
+	}
+	sw := max(2*gemm.Cols, stripValues/mp/(2*gemm.Cols)*(2*gemm.Cols))
+	sw = min(sw, np)
+	nstrip := (np + sw - 1) / sw
+	parallelFor(threads, nstrip, func(s int, scr *scratch) {
+		j0 := s * sw
+		w := min(sw, np-j0)
+		scr.a = fit(scr.a, mp*w)
+		tmp := scr.a
+		nc := min(w, n-j0)
+		for k0 := 0; k0 < k; k0 += kChunk {
+			kc := min(kChunk, k-k0)
+			gemm.CM(mp, w, kc, acm[k0*ldA:], ldA, brm[k0*ldB+j0:], ldB, tmp, w, false)
+			first := k0 == 0
+			for i := 0; i < m; i++ {
+				dst := c[i*ldc+j0 : i*ldc+j0+nc]
+				src := tmp[i*w : i*w+nc]
+				switch {
+				case first && beta == 0:
+					for j, x := range src {
+						dst[j] = alpha * x
+					}
+				case first && beta != 1:
+					for j, x := range src {
+						dst[j] = beta*dst[j] + alpha*x
+					}
+				default:
+					for j, x := range src {
+						dst[j] += alpha * x
+					}
+				}
+			}
+		}
+	})
+}
+
+// mmSmall is mm by gonum's Dgemm.
+func mmSmall(tA, tB blas.Transpose, m, n, k int, alpha float64, a []float64, lda int, b []float64, ldb int, beta float64, c []float64, ldc int) {
 	if k == 0 {
 		for i := 0; i < m; i++ {
 			row := c[i*ldc : i*ldc+n]

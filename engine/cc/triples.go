@@ -2,6 +2,8 @@ package cc
 
 import (
 	"gonum.org/v1/gonum/blas"
+
+	"moltrail/engine/internal/gemm"
 )
 
 // triples is the (T) correction of converged amplitudes (doc.go), by
@@ -43,27 +45,35 @@ func (p *problem) triples(t1, t2 []float64) float64 {
 func (p *problem) tripleEnergy(i, j, k int, t1, t2 []float64, scr *scratch) float64 {
 	o, v := p.o, p.v
 	vvv := v * v * v
-	scr.a = grow(scr.a, vvv) // W
-	scr.b = fit(scr.b, vvv)  // one permutation's term
-	w, x := scr.a, scr.b
+	np := gemm.RoundUp(v, 2*gemm.Cols)
+	scr.a = grow(scr.a, vvv)       // W
+	scr.b = fit(scr.b, vvv)        // Σ_m part of one permutation's term, [a][(b,c)]
+	scr.c = fit(scr.c, p.vvPad*np) // Σ_f part, [(a,b)][c] with leading dimension np
+	scr.d = grow(scr.d, v*np)      // t_jk^fc as [f][c], padded
+	w, x, xf, tb := scr.a, scr.b, scr.c, scr.d
 	occ := [3]int{i, j, k}
 	// The six permutations of the pairs (i a), (j b), (k c): slot s of the
 	// term belongs to occupied occ[at[s]], whose virtual sits at position
 	// at[s] of W.
 	for _, at := range [6][3]int{{0, 1, 2}, {0, 2, 1}, {1, 0, 2}, {1, 2, 0}, {2, 0, 1}, {2, 1, 0}} {
 		ii, jj, kk := occ[at[0]], occ[at[1]], occ[at[2]]
-		// x[a][b][c] = Σ_f (ia|bf) t_kj^cf − Σ_m (ia|jm) t_mk^bc
-		mm(blas.NoTrans, blas.Trans, v*v, v, v, 1, p.ovvv[ii*vvv:], v, t2[(kk*o+jj)*v*v:], v, 0, x, v)
-		mm(blas.NoTrans, blas.NoTrans, v, v*v, o, -1, p.ovoo[(ii*v*o+jj)*o:], o*o, t2[kk*v*v:], o*v*v, 1, x, v*v)
+		// term[a][b][c] = Σ_f (ia|bf) t_kj^cf − Σ_m (ia|jm) t_mk^bc, with
+		// t_kj^cf = t_jk^fc: the first product by the blocked kernel.
+		src := t2[(jj*o+kk)*v*v:]
+		for f := 0; f < v; f++ {
+			copy(tb[f*np:f*np+v], src[f*v:(f+1)*v])
+		}
+		gemm.CM(p.vvPad, np, v, p.ovvvF[ii*v*p.vvPad:], p.vvPad, tb, np, xf, np, false)
+		mm(blas.NoTrans, blas.NoTrans, v, v*v, o, 1, p.ovoo[(ii*v*o+jj)*o:], o*o, t2[kk*v*v:], o*v*v, 0, x, v*v)
 		ws := [3]int{v * v, v, 1}
 		s0, s1, s2 := ws[at[0]], ws[at[1]], ws[at[2]]
-		n := 0
 		for a := 0; a < v; a++ {
 			for b := 0; b < v; b++ {
 				base := a*s0 + b*s1
-				for c := 0; c < v; c++ {
-					w[base+c*s2] += x[n]
-					n++
+				xr := xf[(a*v+b)*np : (a*v+b)*np+v]
+				mr := x[(a*v+b)*v : (a*v+b+1)*v]
+				for c, y := range xr {
+					w[base+c*s2] += y - mr[c]
 				}
 			}
 		}
