@@ -78,6 +78,14 @@ func cmdDerive(args []string, stdout, stderr io.Writer) int {
 		if err := rec.Seal(); err != nil {
 			return fail(stderr, exitFailed, "derive", err)
 		}
+		// the tags changed the id: sign the record again
+		k, err := archive.UserKey()
+		if err == nil {
+			err = k.Sign(rec)
+		}
+		if err != nil {
+			return fail(stderr, exitFailed, "derive", err)
+		}
 	}
 	sums, err := st.ByInputKey(rec.InputKey)
 	if err != nil {

@@ -30,7 +30,7 @@ func TestDeriveCBSEndToEnd(t *testing.T) {
 		}
 		ids = append(ids, rec.ID[:10])
 	}
-	r := moltrail(t, nil, "derive", "--archive", arch, "--json", "cbs", ids[1], ids[0])
+	r := moltrail(t, nil, "derive", "--archive", arch, "--json", "--tag", "set=cbs", "cbs", ids[1], ids[0])
 	if r.code != 0 {
 		t.Fatalf("derive: %d %s", r.code, r.stderr)
 	}
