@@ -11,7 +11,7 @@ import (
 
 // Benchmarks of the store. Record size: an H2/STO-3G fixture, about 1.7 kB.
 
-func fixtures(b *testing.B, n, offset int) []*Record {
+func fixtures(b testing.TB, n, offset int) []*Record {
 	out := make([]*Record, n)
 	for i := range out {
 		k := offset + i

@@ -5,7 +5,9 @@ import (
 	"fmt"
 	"os"
 	"path/filepath"
+	"runtime"
 	"sort"
+	"sync"
 	"time"
 
 	badger "github.com/dgraph-io/badger/v4"
@@ -191,37 +193,38 @@ func (s *Store) mergeOne(dir string, o MergeOptions, incoming map[string]bool) (
 	ms.Records = len(ids)
 	for start := 0; start < len(ids); start += mergeBatch {
 		end := min(start+mergeBatch, len(ids))
-		var recs []*Record
-		var pos []int
+		raws := make([][]byte, end-start)
 		err := src.db.View(func(txn *badger.Txn) error {
 			for i := start; i < end; i++ {
 				item, err := txn.Get([]byte(pRecord + ids[i]))
+				if err == nil {
+					raws[i-start], err = item.ValueCopy(nil)
+				}
+				if err == nil && raws[i-start] == nil {
+					raws[i-start] = []byte{} // refused below: not a record
+				}
 				if err != nil {
 					refused = append(refused, Refusal{Line: i + 1, ID: ids[i], Reason: fmt.Sprintf("%s: record %s… cannot be read: %v", dir, short(ids[i]), err)})
-					continue
 				}
-				raw, err := item.ValueCopy(nil)
-				var rec *Record
-				if err == nil {
-					err = ValidateRecordJSON(raw)
-				}
-				if err == nil {
-					rec, err = Decode(raw)
-				}
-				if err == nil && rec.ID != ids[i] {
-					err = fmt.Errorf("it is stored under the id %s… but names itself %s…", short(ids[i]), short(rec.ID))
-				}
-				if err != nil {
-					refused = append(refused, Refusal{Line: i + 1, ID: ids[i], Reason: fmt.Sprintf("%s:%d: record %s… refused: %v", dir, i+1, short(ids[i]), err)})
-					continue
-				}
-				recs = append(recs, rec)
-				pos = append(pos, i+1)
 			}
 			return nil
 		})
 		if err != nil {
 			return ms, refused, fmt.Errorf("merge source %s: %v", dir, err)
+		}
+		decoded, errs := decodeStored(raws, ids[start:end])
+		var recs []*Record
+		var pos []int
+		for j, rec := range decoded {
+			i := start + j
+			switch {
+			case raws[j] == nil: // unreadable, refused above
+			case errs[j] != nil:
+				refused = append(refused, Refusal{Line: i + 1, ID: ids[i], Reason: fmt.Sprintf("%s:%d: record %s… refused: %v", dir, i+1, short(ids[i]), errs[j])})
+			default:
+				recs = append(recs, rec)
+				pos = append(pos, i+1)
+			}
 		}
 		before := start
 		b := Batch{Source: dir, Records: recs, Lines: pos, Elsewhere: func(id string) bool { return incoming[id] }}
@@ -242,6 +245,38 @@ func (s *Store) mergeOne(dir string, o MergeOptions, incoming map[string]bool) (
 	refused = append(refused, nr...)
 	ms.Refused = len(refused)
 	return ms, refused, err
+}
+
+// decodeStored schema-checks and decodes stored record bytes (nil entries
+// are skipped), each against the id it is stored under, on all cores; the
+// results keep the order of the input.
+func decodeStored(raws [][]byte, ids []string) ([]*Record, []error) {
+	recs := make([]*Record, len(raws))
+	errs := make([]error, len(raws))
+	workers := min(runtime.GOMAXPROCS(0), max(1, len(raws)/64))
+	var wg sync.WaitGroup
+	for w := 0; w < workers; w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for j := w; j < len(raws); j += workers {
+				if raws[j] == nil {
+					continue
+				}
+				err := ValidateRecordJSON(raws[j])
+				var rec *Record
+				if err == nil {
+					rec, err = Decode(raws[j])
+				}
+				if err == nil && rec.ID != ids[j] {
+					err = fmt.Errorf("it is stored under the id %s… but names itself %s…", short(ids[j]), short(rec.ID))
+				}
+				recs[j], errs[j] = rec, err
+			}
+		}()
+	}
+	wg.Wait()
+	return recs, errs
 }
 
 // unlistedIDs returns the ids of records stored under r/ that listed

@@ -107,6 +107,7 @@ func TestShardBalanceAtScale(t *testing.T) {
 	if float64(hi) > 1.1*mean || float64(lo) < 0.9*mean {
 		t.Fatalf("shard sizes %d…%d around a mean of %.0f: outside 10 %%", lo, hi, mean)
 	}
+	t.Logf("10,000 items in 100 shards: %d to %d items each", lo, hi)
 }
 
 // bigPlan is n molecules × (HF optimisation, MP2 and B3LYP single points
