@@ -226,12 +226,19 @@ func scaleM(R [3][3]float64, s float64) [3][3]float64 {
 // addOp appends op unless an operation with the same permutation and
 // (nearly) the same matrix is there.
 func addOp(ops []Op, op Op) []Op {
-	for _, o := range ops {
-		if samePerm(o.Perm, op.Perm) && sameR(o.R, op.R) {
-			return ops
-		}
+	if has(ops, op) {
+		return ops
 	}
 	return append(ops, op)
+}
+
+func has(ops []Op, op Op) bool {
+	for _, o := range ops {
+		if samePerm(o.Perm, op.Perm) && sameR(o.R, op.R) {
+			return true
+		}
+	}
+	return false
 }
 
 func samePerm(a, b []int) bool {
@@ -266,14 +273,11 @@ func closure(f *frame, ops []Op, tol float64) []Op {
 				for a := range p {
 					p[a] = ops[i].Perm[ops[j].Perm[a]]
 				}
-				before := len(ops)
-				if f.match(R, tol) == nil {
+				if has(ops, Op{R: R, Perm: p}) || f.match(R, tol) == nil {
 					continue
 				}
-				ops = addOp(ops, Op{R: R, Perm: p})
-				if len(ops) > before {
-					changed = true
-				}
+				ops = append(ops, Op{R: R, Perm: p})
+				changed = true
 			}
 		}
 	}
