@@ -197,22 +197,30 @@ func FromEnergies(x []float64, energy Energy, o Options) (*Hessian, error) {
 	return &Hessian{H: expand(D, A, len(x)), Energy: e0, Gradient: g, Calculations: len(pts)}, nil
 }
 
-// expand returns D sym(A) Dᵀ as an n×n symmetric matrix.
+// expand returns D sym(A) Dᵀ as an n×n symmetric matrix (D: the m
+// directions as rows), in O(n m² + n² m).
 func expand(D [][]float64, A *mat.Dense, n int) *mat.SymDense {
 	m := len(D)
-	H := mat.NewSymDense(n, nil)
-	for i := 0; i < n; i++ {
-		for j := i; j < n; j++ {
-			s := 0.0
-			for k := 0; k < m; k++ {
-				for l := 0; l < m; l++ {
-					s += D[k][i] * 0.5 * (A.At(k, l) + A.At(l, k)) * D[l][j]
-				}
-			}
-			H.SetSym(i, j, s)
+	Dm := mat.NewDense(m, n, nil)
+	for k := range D {
+		Dm.SetRow(k, D[k])
+	}
+	S := mat.NewDense(m, m, nil)
+	for k := 0; k < m; k++ {
+		for l := 0; l < m; l++ {
+			S.Set(k, l, 0.5*(A.At(k, l)+A.At(l, k)))
 		}
 	}
-	return H
+	var SD, H mat.Dense
+	SD.Mul(S, Dm)
+	H.Mul(Dm.T(), &SD)
+	out := mat.NewSymDense(n, nil)
+	for i := 0; i < n; i++ {
+		for j := i; j < n; j++ {
+			out.SetSym(i, j, 0.5*(H.At(i, j)+H.At(j, i)))
+		}
+	}
+	return out
 }
 
 // Thresholds of the stationary-point classification (common practice, no
