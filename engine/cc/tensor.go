@@ -16,7 +16,7 @@ func mm(tA, tB blas.Transpose, m, n, k int, alpha float64, a []float64, lda int,
 // Blocking of the large products: k in chunks of kChunk, C in column
 // strips of about stripValues/m columns (a multiple of 16).
 const (
-	kChunk      = 512
+	kChunk      = 2048
 	stripValues = 1 << 20
 	// products with a dimension below smallDim go to gonum
 	smallDim = 32
@@ -53,34 +53,52 @@ func mmT(threads int, tA, tB blas.Transpose, m, n, k int, alpha float64, a []flo
 			}
 		}
 	}
-	brm, ldB := b, ldb
-	if tB != blas.NoTrans || n != np {
-		brm, ldB = make([]float64, k*np), np
+	// B row-major: used in place when it is so stored, except for the
+	// last columns beyond a multiple of the kernel block, which are copied
+	// into a padded panel (all of B when it is transposed).
+	nd := n / (2 * gemm.Cols) * (2 * gemm.Cols) // columns read in place
+	if tB != blas.NoTrans {
+		nd = 0
+	}
+	var tail []float64
+	tw := np - nd
+	if tw > 0 {
+		tail = make([]float64, k*tw)
 		if tB == blas.NoTrans {
 			for kk := 0; kk < k; kk++ {
-				copy(brm[kk*np:kk*np+n], b[kk*ldb:kk*ldb+n])
+				copy(tail[kk*tw:kk*tw+n-nd], b[kk*ldb+nd:kk*ldb+n])
 			}
 		} else {
-			for j := 0; j < n; j++ {
+			for j := nd; j < n; j++ {
 				row := b[j*ldb : j*ldb+k]
 				for kk, x := range row {
-					brm[kk*np+j] = x
+					tail[kk*tw+j-nd] = x
 				}
 			}
 		}
 	}
 	sw := max(2*gemm.Cols, stripValues/mp/(2*gemm.Cols)*(2*gemm.Cols))
-	sw = min(sw, np)
-	nstrip := (np + sw - 1) / sw
-	parallelFor(threads, nstrip, func(s int, scr *scratch) {
-		j0 := s * sw
-		w := min(sw, np-j0)
+	// strips of the in-place part, then the tail panel as one strip
+	type strip struct{ j0, w int }
+	var strips []strip
+	for j0 := 0; j0 < nd; j0 += sw {
+		strips = append(strips, strip{j0, min(sw, nd-j0)})
+	}
+	if tw > 0 {
+		strips = append(strips, strip{nd, tw})
+	}
+	parallelFor(threads, len(strips), func(si int, scr *scratch) {
+		j0, w := strips[si].j0, strips[si].w
+		src, ld, off := b, ldb, j0
+		if j0 >= nd {
+			src, ld, off = tail, tw, 0
+		}
 		scr.a = fit(scr.a, mp*w)
 		tmp := scr.a
 		nc := min(w, n-j0)
 		for k0 := 0; k0 < k; k0 += kChunk {
 			kc := min(kChunk, k-k0)
-			gemm.CM(mp, w, kc, acm[k0*ldA:], ldA, brm[k0*ldB+j0:], ldB, tmp, w, false)
+			gemm.CM(mp, w, kc, acm[k0*ldA:], ldA, src[k0*ld+off:], ld, tmp, w, false)
 			first := k0 == 0
 			for i := 0; i < m; i++ {
 				dst := c[i*ldc+j0 : i*ldc+j0+nc]
