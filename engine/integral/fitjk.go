@@ -375,8 +375,8 @@ func batchesOf(facs []densityFactor) []batch {
 
 // kScratch is one worker's space for the exchange of one range of Q.
 type kScratch struct {
-	r, cb, tmp, kt, ts, part []float64
-	t                        []float64 // in memory: the half-transformed integrals of one range of Q
+	r, cb, tmp, kt, tt, ts, part []float64
+	t                            []float64 // in memory: the half-transformed integrals of one range of Q
 }
 
 // tFor returns per-batch views of s.t for one range of nq fitted
@@ -413,6 +413,7 @@ func (f *FittedJK) newKScratch() *kScratch {
 		cb:   make([]float64, f.maxBlk*fitBatch),
 		tmp:  make([]float64, fitBatch*f.nQ*f.nPad),
 		kt:   make([]float64, f.nPad*f.nPad),
+		tt:   make([]float64, fitBatch*f.nQ*f.nPad),
 		ts:   make([]float64, fitBatch*f.nQ*f.nPad),
 		part: make([]float64, f.nQ),
 	}
@@ -438,7 +439,7 @@ func (f *FittedJK) dPart(b *fitBlock, src *rowSource, dp []float64, qa, qb int, 
 	}
 }
 
-// unpack fills R[l][Q][μ] = B^Q_{λμ} for the functions λ of block bi
+// unpack fills R[l][μ][Q] = B^Q_{λμ} for the functions λ of block bi
 // (local index l), all μ, Q in [qa, qb).
 func (f *FittedJK) unpack(bi int, src *rowSource, qa, qb int, R []float64) {
 	b := &f.blocks[bi]
@@ -457,22 +458,16 @@ func (f *FittedJK) unpack(bi int, src *rowSource, qa, qb int, R []float64) {
 			row := src.row(int(i), r)[qa:qb]
 			mu, nu := pd.mu[q], pd.nu[q]
 			if f.fBlock[mu] == int32(bi) {
-				dst := R[int(f.fLoc[mu])*stride+int(nu):]
-				for x, v := range row {
-					dst[x*f.nPad] = v
-				}
+				copy(R[int(f.fLoc[mu])*stride+int(nu)*nq:], row)
 			}
 			if mu != nu && f.fBlock[nu] == int32(bi) {
-				dst := R[int(f.fLoc[nu])*stride+int(mu):]
-				for x, v := range row {
-					dst[x*f.nPad] = v
-				}
+				copy(R[int(f.fLoc[nu])*stride+int(mu)*nq:], row)
 			}
 		}
 	}
 }
 
-// halfStep adds block bi's part of T[i][Q][μ] = Σ_λ x_λi B^Q_λμ for the
+// halfStep adds block bi's part of T[i][μ][Q] = Σ_λ x_λi B^Q_λμ for the
 // factor columns of bt: the block's product first, then the addition.
 func (f *FittedJK) halfStep(bi int, fac *densityFactor, bt batch, R []float64, nq int, s *kScratch, T []float64) {
 	b := &f.blocks[bi]
@@ -490,17 +485,29 @@ func (f *FittedJK) halfStep(bi int, fac *densityFactor, bt batch, R []float64, n
 	}
 }
 
-// kStep adds Σ_{i,Q} s_i T[i][Q][μ] T[i][Q][ν] (upper triangle) to kd.
+// kStep adds Σ_{i,Q} s_i T[i][μ][Q] T[i][ν][Q] (upper triangle) to kd,
+// through the transposed copy [i][Q][μ] (and a signed one when a factor
+// column has a negative sign).
 func (f *FittedJK) kStep(fac *densityFactor, bt batch, T []float64, nq int, s *kScratch, kd []float64) {
-	tb := T
 	block := nq * f.nPad
+	tt := s.tt[:bt.wp*block]
+	for i := 0; i < bt.wp; i++ {
+		src, dst := T[i*block:(i+1)*block], tt[i*block:(i+1)*block]
+		for mu := 0; mu < f.nPad; mu++ {
+			col := src[mu*nq : (mu+1)*nq]
+			for q, v := range col {
+				dst[q*f.nPad+mu] = v
+			}
+		}
+	}
+	ts := tt
 	for i := bt.x0; i < bt.x1; i++ {
 		if fac.sign[i] < 0 {
-			tb = s.ts[:len(T)]
-			copy(tb, T)
+			ts = s.ts[:len(tt)]
+			copy(ts, tt)
 			for j := bt.x0; j < bt.x1; j++ {
 				if fac.sign[j] < 0 {
-					row := tb[(j-bt.x0)*block : (j-bt.x0+1)*block]
+					row := ts[(j-bt.x0)*block : (j-bt.x0+1)*block]
 					for x := range row {
 						row[x] = -row[x]
 					}
@@ -510,7 +517,7 @@ func (f *FittedJK) kStep(fac *densityFactor, bt batch, T []float64, nq int, s *k
 		}
 	}
 	kt := s.kt
-	gemm.CM(f.nPad, f.nPad, bt.wp*nq, T, f.nPad, tb, f.nPad, kt, f.nPad, true)
+	gemm.CM(f.nPad, f.nPad, bt.wp*nq, tt, f.nPad, ts, f.nPad, kt, f.nPad, true)
 	for i := 0; i < f.n; i++ {
 		a, v := kd[i*f.nPad+i:i*f.nPad+f.n], kt[i*f.nPad+i:i*f.nPad+f.n]
 		for j, x := range v {
