@@ -17,6 +17,7 @@ import (
 //	SCS-MP2/cc-pVTZ, UB3LYP/6-31G*
 //	MP2(fc)/cc-pVDZ//HF/6-31G*     a single point on the optimised
 //	                               structure of another level (A//B)
+//	DF-HF/cc-pVDZ, DF-UB3LYP/...   density-fitted Coulomb and exchange
 //
 // The angular type of the basis functions (Cartesian or spherical) is not
 // part of the label; it is printed beside it where it matters.
@@ -91,6 +92,9 @@ func methodLabel(j *engine.Job) string {
 	}
 	if j.Method == "scs-mp2" {
 		name = "SCS-" + name
+	}
+	if j.Fitting != nil {
+		name = "DF-" + name
 	}
 	if j.Correlation != nil && j.Correlation.FrozenCore {
 		name += "(fc)"

@@ -53,6 +53,17 @@ func TestJobLevelNotation(t *testing.T) {
 		if got := JobLevel(&j); got != c.want {
 			t.Errorf("%s multiplicity %d frozen %v: label %q, want %q", c.method, c.mult, c.frozen, got, c.want)
 		}
+	}	// density-fitted Coulomb and exchange: the DF- prefix
+	for _, c := range []struct {
+		method string
+		mult   int
+		want   string
+	}{{"hf", 1, "DF-HF/6-31G*"}, {"uhf", 2, "DF-UHF/6-31G*"}, {"b3lyp", 2, "DF-UB3LYP/6-31G*"}} {
+		j := levelJob(t, c.method, "6-31G*", "energy", c.mult, false)
+		j.Fitting = &engine.FittingSpec{}
+		if got := JobLevel(&j); got != c.want {
+			t.Errorf("fitted %s multiplicity %d: label %q, want %q", c.method, c.mult, got, c.want)
+		}
 	}
 }
 

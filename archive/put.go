@@ -30,6 +30,8 @@ type Summary struct {
 	Tags          []string `json:"tags"`
 	CodeVersion   string   `json:"code_version"`
 	Revision      string   `json:"vcs_revision"`
+	// FitSet names the auxiliary set of density-fitted integrals (empty: exact integrals).
+	FitSet string `json:"fit_set,omitempty"`
 }
 
 // Summarise builds the summary of a record.
@@ -38,7 +40,7 @@ func Summarise(r *Record) Summary {
 	if tags == nil {
 		tags = []string{}
 	}
-	return Summary{ID: r.ID, InputKey: r.InputKey, Status: r.Status, Molecule: r.Input.Molecule.Name,
+	return Summary{ID: r.ID, InputKey: r.InputKey, Status: r.Status, Molecule: r.Input.Molecule.Name, FitSet: r.FitSet(),
 		Formula: r.Formula(), Method: r.Input.Method, Reference: r.Input.Reference, Basis: r.Input.Basis.Name,
 		Angular: string(r.Input.Basis.Angular), Task: r.Input.Task, EnergyHartree: r.Results.EnergyHartree,
 		StartUTC: r.Run.StartUTC, Tags: tags, CodeVersion: r.Code.Version, Revision: r.Code.Revision}

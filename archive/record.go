@@ -235,6 +235,15 @@ func (r *Record) Formula() string {
 	return m.Formula()
 }
 
+// FitSet names the auxiliary set the record's two-electron integrals were
+// fitted with, or "" for exact integrals.
+func (r *Record) FitSet() string {
+	if r.Input.Fitting == nil {
+		return ""
+	}
+	return r.Input.Fitting.SCFSet.Name
+}
+
 func short(h string) string {
 	if len(h) > 12 {
 		return h[:12]

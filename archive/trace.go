@@ -91,6 +91,8 @@ type TraceMatch struct {
 	// was combined from (trace each by its id).
 	Recipe      string         `json:"recipe,omitempty"`
 	DerivedFrom []DerivedInput `json:"derived_from,omitempty"`
+	// FitSet names the auxiliary set of density-fitted integrals (empty: exact integrals).
+	FitSet string `json:"fit_set,omitempty"`
 }
 
 // Trace finds every quantity of the given records that, expressed in the
@@ -130,7 +132,8 @@ func Trace(recs []*Record, printed string, unit string) ([]TraceMatch, PrintedVa
 			tm := TraceMatch{RecordID: r.ID, Molecule: r.Input.Molecule.Name, Formula: r.Formula(), Quantity: q.Path,
 				Kind: q.Kind, Value: v, Unit: uname, MagnitudeOnly: mag, Level: LevelLabel(r, look), Method: r.Input.Method, Basis: r.Input.Basis.Name,
 				Angular: string(r.Input.Basis.Angular), EnergyTol: r.Input.SCF.EnergyTolHartree, DensityTol: r.Input.SCF.DensityTol,
-				GradientTol: r.Input.SCF.GradientTol, Revision: r.Code.Revision, Version: r.Code.Version, StartUTC: r.Run.StartUTC, Status: r.Status}
+				GradientTol: r.Input.SCF.GradientTol, Revision: r.Code.Revision, Version: r.Code.Version, StartUTC: r.Run.StartUTC, Status: r.Status,
+				FitSet: r.FitSet()}
 			if d := r.Derivation; d != nil {
 				tm.Recipe, tm.DerivedFrom = d.Recipe, d.Inputs
 			}

@@ -169,6 +169,8 @@ type Job struct {
 	// Freq asks for harmonic frequencies: task "frequencies" at the input
 	// geometry, task "optimize" at the optimised one.
 	Freq *FreqSettings `json:"frequencies,omitempty"`
+	// Fitting selects density-fitted two-electron integrals (absent: exact).
+	Fitting *FittingSpec `json:"density_fitting,omitempty"`
 }
 
 // Canonical returns the canonical bytes of a normalised job.
@@ -218,19 +220,23 @@ func SpecFromMolecule(m *molecule.Molecule) MoleculeSpec {
 
 // ResolveBasis loads the job's basis set (built-in name, or the inline
 // copy of a user file) and checks its content hash against the job.
-func (j *Job) ResolveBasis() (*basis.Set, error) {
+func (j *Job) ResolveBasis() (*basis.Set, error) { return j.Basis.resolve() }
+
+// resolve loads a pinned basis (built-in name, or the inline copy of a
+// user file) and checks its content hash.
+func (b BasisSpec) resolve() (*basis.Set, error) {
 	var set *basis.Set
 	var err error
-	if len(j.Basis.Inline) > 0 {
-		set, err = basis.ParseBytes(j.Basis.Inline, "inline:"+j.Basis.File)
+	if len(b.Inline) > 0 {
+		set, err = basis.ParseBytes(b.Inline, "inline:"+b.File)
 	} else {
-		set, err = basis.Builtin(j.Basis.Name)
+		set, err = basis.Builtin(b.Name)
 	}
 	if err != nil {
 		return nil, err
 	}
-	if j.Basis.SHA256 != "" && set.SHA256 != j.Basis.SHA256 {
-		return nil, &BasisChangedError{Name: j.Basis.Name, Want: j.Basis.SHA256, Have: set.SHA256}
+	if b.SHA256 != "" && set.SHA256 != b.SHA256 {
+		return nil, &BasisChangedError{Name: b.Name, Want: b.SHA256, Have: set.SHA256}
 	}
 	return set, nil
 }

@@ -97,6 +97,8 @@ type Request struct {
 	// AllowCloseAtoms lets a molecule with atoms closer than the physical
 	// minimum (molecule.CloseFraction) through; the result then carries a note.
 	AllowCloseAtoms bool
+	// Fitting asks for density-fitted two-electron integrals (nil: exact).
+	Fitting *FittingRequest
 }
 
 // ErrCloseAtoms marks the refusal of a molecule whose atoms are closer than
@@ -241,6 +243,14 @@ func NewJob(r Request) (*Job, error) {
 		}
 		j.Grid = &g
 	}
+	if r.Fitting != nil {
+		if info.Correlated() {
+			return nil, fmt.Errorf("density fitting covers the SCF and DFT methods in this build; %s runs with exact integrals (leave the fitting out)", method)
+		}
+		if j.Fitting, err = fittingFor(r.Fitting, set, j.Basis.Angular, m); err != nil {
+			return nil, err
+		}
+	}
 	if r.FrozenCore && !info.Correlated() {
 		return nil, fmt.Errorf("frozen core applies to correlated methods (mp2, scs-mp2, ccsd, ccsd(t)), not to %s", method)
 	}
@@ -248,8 +258,8 @@ func NewJob(r Request) (*Job, error) {
 	case "energy", "frequencies":
 	case "optimize":
 		o := DefaultOpt
-		if info.Correlated() {
-			// Correlated-method gradients are central differences of energies.
+		if info.Correlated() || j.Fitting != nil {
+			// Correlated-method and fitted gradients are central differences of energies.
 			o.GradientMethod, o.FiniteDiffStepAU = "finite-difference", 1e-3
 		}
 		if r.Opt != nil {
@@ -259,6 +269,9 @@ func NewJob(r Request) (*Job, error) {
 		case "analytic":
 			if info.Correlated() {
 				return nil, fmt.Errorf("analytic gradients are not available for %s; use the finite-difference gradient method", method)
+			}
+			if j.Fitting != nil {
+				return nil, fmt.Errorf("analytic gradients of density-fitted energies are not available in this build; use the finite-difference gradient method")
 			}
 			o.FiniteDiffStepAU = 0
 		case "finite-difference":
@@ -386,6 +399,17 @@ func (j *Job) Validate() error {
 	}
 	if j.Basis.Angular != basis.Spherical && j.Basis.Angular != basis.Cartesian {
 		return fmt.Errorf("basis.angular %q is not spherical or cartesian", j.Basis.Angular)
+	}
+	if f := j.Fitting; f != nil {
+		if Methods[j.Method].Correlated() {
+			return fmt.Errorf("density_fitting is set, but fitted integrals cover the SCF and DFT methods only, not %s", j.Method)
+		}
+		if o := j.Opt; o != nil && o.GradientMethod == "analytic" {
+			return fmt.Errorf("density_fitting is set, but analytic gradients of fitted energies are not available; optimization.gradient_method must be finite-difference")
+		}
+		if err := f.validate(); err != nil {
+			return err
+		}
 	}
 	return nil
 }

@@ -249,6 +249,8 @@ type Result struct {
 	Vibrations      *Vibrations     `json:"vibrations,omitempty"`
 	// PointGroup is the point group an optimisation kept (Schoenflies symbol).
 	PointGroup string `json:"point_group,omitempty"`
+	// Fitting says how density-fitted integrals were made (absent: exact integrals).
+	Fitting *FittingInfo `json:"density_fitting,omitempty"`
 	// Notes are plain-words remarks the engine wants a reader to see.
 	Notes []string `json:"notes,omitempty"`
 }

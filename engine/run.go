@@ -138,6 +138,12 @@ func compute(job *Job, mol *molecule.Molecule, set *basis.Set, o RunOptions, wit
 		}
 		so.XC = xc
 	}
+	var fit *FittingInfo
+	if job.Fitting != nil {
+		if fit, err = fittedJK(job, mol, mb, &so, o); err != nil {
+			return nil, err
+		}
+	}
 	if o.Progress != nil {
 		so.Progress = prefixWriter{o.Progress, "  scf "}
 	}
@@ -145,7 +151,7 @@ func compute(job *Job, mol *molecule.Molecule, set *basis.Set, o RunOptions, wit
 	if err != nil {
 		return nil, err
 	}
-	if sr.ERI != nil {
+	if sr.ERI != nil && fit == nil {
 		o.logf("  two-electron integrals: %s\n", integralMode(sr.ERI.Stats()))
 	}
 	res := &Result{
@@ -157,6 +163,7 @@ func compute(job *Job, mol *molecule.Molecule, set *basis.Set, o RunOptions, wit
 		TwoElectronHartree:      sr.TwoElectron,
 		NBasis:                  mb.NBasis,
 		Electrons:               [2]int{sr.NAlpha, sr.NBeta},
+		Fitting:                 fit,
 	}
 	if info.Family == "dft" {
 		x := sr.XC

@@ -91,10 +91,14 @@ type LevelEntry struct {
 	RelaxedProperties string `json:"relaxed_properties,omitempty"`
 	// MultipoleOrigin: centre-of-mass (default), centre-of-charge,
 	// coordinate-origin, point:X,Y,Z (ångström) or atom:N (see engine.ParseOrigin).
-	MultipoleOrigin string    `json:"multipole_origin,omitempty"`
-	SCF             *SCFEntry `json:"scf,omitempty"`
-	Optimization    *OptEntry `json:"optimization,omitempty"`
-	Comment         string    `json:"comment,omitempty"`
+	MultipoleOrigin string `json:"multipole_origin,omitempty"`
+	// DensityFitting asks for density-fitted Coulomb and exchange (SCF and
+	// DFT methods; in a cross product the correlated methods keep exact
+	// integrals).
+	DensityFitting *FitEntry `json:"density_fitting,omitempty"`
+	SCF            *SCFEntry `json:"scf,omitempty"`
+	Optimization   *OptEntry `json:"optimization,omitempty"`
+	Comment        string    `json:"comment,omitempty"`
 }
 
 // SCFEntry overrides SCF settings (absent fields keep the engine's defaults).
@@ -107,6 +111,15 @@ type SCFEntry struct {
 	DIISSize          *int     `json:"diis_size,omitempty"`
 	SchwarzThreshold  *float64 `json:"schwarz_threshold,omitempty"`
 	LevelShiftHartree *float64 `json:"level_shift_hartree,omitempty"`
+}
+
+// FitEntry is a level's density-fitting request.
+type FitEntry struct {
+	// SCFSet names the auxiliary set; "" or "auto" = the library's match
+	// for the orbital basis.
+	SCFSet           string   `json:"scf_set,omitempty"`
+	MetricCutoff     *float64 `json:"metric_eigenvalue_cutoff,omitempty"`
+	SchwarzThreshold *float64 `json:"three_centre_schwarz_threshold,omitempty"`
 }
 
 // OptEntry overrides geometry-optimisation criteria.
@@ -451,6 +464,16 @@ func (e LevelEntry) level(method, basisName string, single bool) (*Level, error)
 		}
 		r.Origin = o
 	}
+	if f := e.DensityFitting; f != nil {
+		if info.Correlated() && single {
+			return nil, fmt.Errorf("density_fitting covers the SCF and DFT methods; %s runs with exact integrals", mname)
+		}
+		if !info.Correlated() {
+			r.Fitting = &engine.FittingRequest{SCFSet: f.SCFSet}
+			setF(&r.Fitting.MetricCutoff, f.MetricCutoff)
+			setF(&r.Fitting.SchwarzThreshold, f.SchwarzThreshold)
+		}
+	}
 	if e.SCF != nil {
 		sc := engine.DefaultSCF
 		e.SCF.apply(&sc)
@@ -462,9 +485,15 @@ func (e LevelEntry) level(method, basisName string, single bool) (*Level, error)
 		label += "(fc)"
 	}
 	label += "/" + set.Name
+	if r.Fitting != nil {
+		label += " (fitted)"
+	}
 	id := e.ID
 	if id == "" {
 		id = mname + "/" + strings.TrimSpace(basisName)
+		if r.Fitting != nil {
+			id += "/fitted"
+		}
 	} else {
 		// A named level is shown by its name: several may share method and basis.
 		label = strings.TrimSpace(id) + " (" + label + ")"

@@ -235,6 +235,53 @@ func TestLevelSettingsReachTheJob(t *testing.T) {
 	}
 }
 
+// A level's density_fitting reaches the SCF and DFT jobs of a cross
+// product (the correlated ones keep exact integrals), gives the level its
+// own id and label, and is refused for a single correlated level.
+func TestLevelDensityFitting(t *testing.T) {
+	src := `{"format":"moltrail-study/1","name":"x","molecules":[{"file":"h2.xyz"}],
+	  "levels":[{"methods":["hf","mp2","pbe"],"basis_sets":["cc-pvdz"],"density_fitting":{"three_centre_schwarz_threshold":1e-11}},
+	    {"method":"hf","basis":"cc-pvdz"}, {"id":"named","method":"hf","basis":"cc-pvdz","density_fitting":{"scf_set":"def2-universal-jkfit"}}],
+	  "tasks":[{"task":"energy"}]}`
+	s := mustParse(t, src)
+	p, err := s.Plan()
+	if err != nil {
+		t.Fatal(err)
+	}
+	want := map[string]string{"hf/cc-pvdz/fitted": "cc-pVDZ-JKFIT", "pbe/cc-pvdz/fitted": "cc-pVDZ-JKFIT", "mp2/cc-pvdz": "", "hf/cc-pvdz": "", "named": "def2-universal-JKFIT"}
+	for _, it := range p.Items {
+		j, err := it.Job(nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		w, ok := want[it.Level.ID]
+		if !ok {
+			t.Fatalf("unexpected level %q", it.Level.ID)
+		}
+		delete(want, it.Level.ID)
+		got := ""
+		if j.Fitting != nil {
+			got = j.Fitting.SCFSet.Name
+			if it.Level.ID != "named" && j.Fitting.SchwarzThreshold != 1e-11 {
+				t.Errorf("%s: three-centre threshold %g", it.Level.ID, j.Fitting.SchwarzThreshold)
+			}
+			if !strings.Contains(it.Level.Label, "fitted") {
+				t.Errorf("%s: label %q does not say fitted", it.Level.ID, it.Level.Label)
+			}
+		}
+		if got != w {
+			t.Errorf("%s: fitting set %q, want %q", it.Level.ID, got, w)
+		}
+	}
+	if len(want) != 0 {
+		t.Errorf("levels missing: %v", want)
+	}
+	bad := strings.Replace(src, `{"method":"hf","basis":"cc-pvdz"}`, `{"method":"mp2","basis":"cc-pvdz","density_fitting":{}}`, 1)
+	if _, err := Parse([]byte(bad), "s.json", files(map[string]string{"h2.xyz": h2XYZ})); err == nil || !strings.Contains(err.Error(), "density_fitting covers the SCF and DFT methods") {
+		t.Errorf("fitted single mp2 level: %v", err)
+	}
+}
+
 // fake is a Computer that counts calls per input key and returns a
 // converged result whose optimised geometry is the input shrunk by 1 %.
 type fake struct {

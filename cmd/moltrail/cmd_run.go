@@ -91,6 +91,10 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 	ccMaxIter := fs.Int("cc-max-iter", engine.DefaultCC.MaxIter, "coupled cluster: iteration limit")
 	symTol := fs.Float64("symmetry-tol", engine.DefaultOpt.SymmetryTolAngstrom, "optimisation: keep the start geometry's point group found within this tolerance (Å; 0 = do not)")
 	gradMethod := fs.String("gradient", "", "optimisation gradient `KIND`: analytic or finite-difference (default: analytic for HF and DFT, finite-difference for the MP2 family)")
+	fit := fs.Bool("fit", false, "density-fitted Coulomb and exchange for the SCF/DFT, with the library's fitting set for the basis (cc-pVXZ-JKFIT, aug-cc-pVXZ-JKFIT, def2-universal-JKFIT for def2 and Pople sets)")
+	fitSet := fs.String("fit-set", "", "density fitting with this auxiliary `SET` (a JKFIT set of the library or a basis JSON file); implies --fit")
+	fitCut := fs.Float64("fit-metric-cutoff", engine.DefaultFitMetricCutoff, "density fitting: relative eigenvalue cut-off of the metric inversion")
+	fitSchwarz := fs.Float64("fit-schwarz", engine.DefaultFitSchwarzThreshold, "density fitting: skip three-centre blocks with Schwarz bound below this")
 	pos, code, ok := parseFlags(fs, args)
 	if !ok {
 		return code
@@ -186,6 +190,12 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 			o.FiniteDiffStepAU = 1e-3
 		}
 		req.Opt = &o
+	}
+	if *fit || *fitSet != "" || set["fit-metric-cutoff"] || set["fit-schwarz"] {
+		if !*fit && *fitSet == "" {
+			return fail(stderr, exitUsage, "run", fmt.Errorf("--fit-metric-cutoff and --fit-schwarz apply to density-fitted runs: add --fit or --fit-set"))
+		}
+		req.Fitting = &engine.FittingRequest{SCFSet: *fitSet, MetricCutoff: *fitCut, SchwarzThreshold: *fitSchwarz}
 	}
 	if *cart {
 		req.Angular = basis.Cartesian

@@ -202,7 +202,7 @@ func cmdTrace(args []string, stdout, stderr io.Writer) int {
 		if m.MagnitudeOnly {
 			note = "magnitude only (sign differs)"
 		}
-		t.add(m.RecordID[:12], m.Molecule, m.Quantity, fmt.Sprintf("%.8g", m.Value), m.Unit, m.Level+angularMark(m.Angular),
+		t.add(m.RecordID[:12], m.Molecule, m.Quantity, fmt.Sprintf("%.8g", m.Value), m.Unit, m.Level+angularMark(m.Angular)+fitNote(m.FitSet, " "),
 			fmt.Sprintf("%.0e", m.EnergyTol), codeLabel(m.Version, m.Revision), utc(m.StartUTC), note)
 	}
 	t.write(stdout)

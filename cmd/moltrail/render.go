@@ -15,7 +15,16 @@ import (
 // levelLine is a record's level label (archive.LevelLabel, with look to
 // follow geometry-from links) and the angular type of its basis functions.
 func levelLine(r *archive.Record, look archive.Lookup) string {
-	return archive.LevelLabel(r, look) + " (" + string(r.Input.Basis.Angular) + " functions)"
+	return archive.LevelLabel(r, look) + " (" + string(r.Input.Basis.Angular) + " functions" + fitNote(r.FitSet(), ", ") + ")"
+}
+
+// fitNote names the auxiliary set of a density-fitted record after sep
+// ("" for exact integrals).
+func fitNote(set, sep string) string {
+	if set == "" {
+		return ""
+	}
+	return sep + "fitted with " + set
 }
 
 // codeLabel is a program version with the start of its VCS revision.
@@ -113,6 +122,11 @@ func writeRecord(w io.Writer, r *archive.Record, notes []archive.Note, look arch
 			kv("coupled cluster", "|ΔE| < %g hartree, rms Δt < %g, ≤ %d iterations, DIIS %d, %s integrals", k.EnergyTolHartree, k.AmplitudeTol, k.MaxIter, k.DIISSize, k.Integrals)
 		}
 	}
+	if f := in.Fitting; f != nil {
+		kv("fitted integrals", "Coulomb and exchange of the SCF, density-fitted with %s  %s  %s", f.SCFSet.Name, f.SCFSet.Angular, f.SCFSet.File)
+		kv("auxiliary sha256", "%s", f.SCFSet.SHA256)
+		kv("fitting thresholds", "metric eigenvalue cut-off %g (relative), three-centre Schwarz %g", f.MetricCutoff, f.SchwarzThreshold)
+	}
 	kv("multipole origin", "%s", in.OriginLabel())
 	if o := in.Opt; o != nil {
 		kv("optimisation", "max force %g, rms force %g hartree/bohr, ≤ %d steps, %s coordinates, %s gradient", o.MaxForce, o.RMSForce, o.MaxSteps, o.Coordinates, o.GradientMethod)
@@ -157,6 +171,9 @@ func writeRecord(w io.Writer, r *archive.Record, notes []archive.Note, look arch
 		writeOrbitals(w, res.Orbitals, u)
 		writeCharges(w, r)
 		kv("basis functions", "%d   electrons α %d β %d", res.NBasis, res.Electrons[0], res.Electrons[1])
+		if f := res.Fitting; f != nil {
+			kv("fitting", "%s: %d auxiliary functions, %d fitted; metric inverted by %s (condition estimate %.2g, %d combinations removed)", f.SCFSet, f.AuxFunctions, f.FittedFunctions, f.Metric, f.MetricCondition, f.MetricRemoved)
+		}
 		if n := len(res.SCFIterations); n > 0 {
 			last := res.SCFIterations[n-1]
 			kv("scf iterations", "%d (last ΔE %.2e hartree, rms ΔD %.2e, gradient %.2e)", n, last.DeltaEHartree, last.DensityRMS, last.OrbitalGradient)
