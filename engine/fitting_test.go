@@ -87,8 +87,11 @@ func TestFittingChoices(t *testing.T) {
 			t.Errorf("error %v, want containing %q", err, c.want)
 		}
 	}
-	j, err := NewJob(Request{Molecule: m2, Method: "hf", Basis: "cc-pvdz", Task: "optimize", Fitting: &FittingRequest{}})
-	if err != nil || j.Opt.GradientMethod != "finite-difference" {
-		t.Errorf("fitted optimisation: %v, gradient %v", err, j)
+	j, err := NewJob(Request{Molecule: m2, Method: "hf", Basis: "cc-pvdz", Task: "optimize", Frequencies: true, Fitting: &FittingRequest{}})
+	if err != nil || j.Opt.GradientMethod != "finite-difference" || j.Freq.Derivatives != "energy-differences" {
+		t.Errorf("fitted optimisation with frequencies: %v, %+v %+v", err, j.Opt, j.Freq)
+	}
+	if _, err := NewJob(Request{Molecule: m2, Method: "hf", Basis: "cc-pvdz", Task: "frequencies", Freq: &DefaultFreq, Fitting: &FittingRequest{}}); err == nil || !strings.Contains(err.Error(), "use energy-differences") {
+		t.Errorf("fitted frequencies from gradient differences: %v", err)
 	}
 }

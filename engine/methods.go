@@ -287,7 +287,7 @@ func NewJob(r Request) (*Job, error) {
 	}
 	if j.Task == "frequencies" || (j.Task == "optimize" && (r.Frequencies || r.Freq != nil)) {
 		f := DefaultFreq
-		if info.Correlated() {
+		if info.Correlated() || j.Fitting != nil {
 			f = DefaultFreqEnergies
 		}
 		if r.Freq != nil {
@@ -389,6 +389,8 @@ func (j *Job) Validate() error {
 			return fmt.Errorf("frequencies settings belong to task frequencies or optimize, not %s", j.Task)
 		case f.Derivatives == "gradient-differences" && Methods[j.Method].Correlated():
 			return fmt.Errorf("frequencies.derivatives gradient-differences needs analytic gradients, which %s lacks: use energy-differences", j.Method)
+		case f.Derivatives == "gradient-differences" && j.Fitting != nil:
+			return fmt.Errorf("frequencies.derivatives gradient-differences needs analytic gradients, which density-fitted energies lack here: use energy-differences")
 		case f.Derivatives != "gradient-differences" && f.Derivatives != "energy-differences":
 			return fmt.Errorf("frequencies.derivatives %q is not known (gradient-differences or energy-differences)", f.Derivatives)
 		case !(f.StepBohr >= 1e-4 && f.StepBohr <= 0.1):
