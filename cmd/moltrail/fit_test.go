@@ -5,6 +5,8 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+
+	"moltrail/archive"
 )
 
 // A fitted run is stored under its own key beside the exact one, and show,
@@ -22,6 +24,9 @@ func TestFittedRunIsShown(t *testing.T) {
 	a, b := decodeRecord(t, exact.stdout), decodeRecord(t, fit.stdout)
 	if a.InputKey == b.InputKey || a.Results.Fitting != nil || b.Results.Fitting == nil || b.Input.Fitting.SCFSet.Name != "cc-pVDZ-JKFIT" {
 		t.Fatalf("exact %s / fitted %s: fitting %+v", a.InputKey[:12], b.InputKey[:12], b.Results.Fitting)
+	}
+	if err := archive.ValidateRecordJSON([]byte(strings.TrimSpace(fit.stdout))); err != nil {
+		t.Fatalf("a fitted record does not match the record schema: %v", err)
 	}
 	show := call("show", "--archive", arch, b.ID[:12])
 	for _, want := range []string{"DF-HF/cc-pVDZ (spherical functions, fitted with cc-pVDZ-JKFIT)", "density-fitted with cc-pVDZ-JKFIT", "auxiliary sha256", b.Input.Fitting.SCFSet.SHA256, "metric eigenvalue cut-off"} {
