@@ -22,6 +22,7 @@ import (
 	"encoding/json"
 	"fmt"
 	"path/filepath"
+	"reflect"
 	"sort"
 	"strings"
 	"sync"
@@ -242,17 +243,23 @@ var (
 // resolves the XYZ files the study names (nil: files are not allowed).
 func Parse(b []byte, origin string, read Reader) (*Study, error) {
 	var f File
+	loc := locate(b)
+	if loc != nil {
+		if err := loc.unknownKey(reflect.TypeOf(f)); err != nil {
+			return nil, fmt.Errorf("study %s: %v", origin, err)
+		}
+	}
 	dec := json.NewDecoder(bytes.NewReader(b))
 	dec.DisallowUnknownFields()
 	if err := dec.Decode(&f); err != nil {
 		return nil, fmt.Errorf("study %s: %v", origin, jsonErr(b, err))
 	}
 	if len(bytes.TrimSpace(b[dec.InputOffset():])) > 0 {
-		return nil, fmt.Errorf("study %s: data after the closing brace", origin)
+		return nil, fmt.Errorf("study %s: %s: data after the closing brace", origin, at(b, int(dec.InputOffset())))
 	}
 	s := &Study{File: f, Origin: origin}
 	if err := s.build(read); err != nil {
-		return nil, fmt.Errorf("study %s: %v", origin, err)
+		return nil, fmt.Errorf("study %s: %v", origin, loc.place(err))
 	}
 	// The schema is the published description of the layout; the checks
 	// above give the clearer messages, this one catches anything they miss.
@@ -261,12 +268,12 @@ func Parse(b []byte, origin string, read Reader) (*Study, error) {
 		return nil, schemaErr
 	}
 	if err := schemas.ValidateBytes(schema, b); err != nil {
-		return nil, fmt.Errorf("study %s does not follow schemas/study.schema.json: %v", origin, err)
+		return nil, fmt.Errorf("study %s does not follow schemas/study.schema.json: %v", origin, loc.place(err))
 	}
 	return s, nil
 }
 
-// jsonErr adds the line number to a JSON syntax or type error.
+// jsonErr adds the line and column to a JSON syntax or type error.
 func jsonErr(b []byte, err error) error {
 	var off int64 = -1
 	switch e := err.(type) {
@@ -278,8 +285,7 @@ func jsonErr(b []byte, err error) error {
 	if off < 0 || off > int64(len(b)) {
 		return err
 	}
-	line := 1 + bytes.Count(b[:off], []byte("\n"))
-	return fmt.Errorf("line %d: %v", line, err)
+	return fmt.Errorf("%s: %v", at(b, int(off)), err)
 }
 
 func (s *Study) build(read Reader) error {

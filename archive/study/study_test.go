@@ -61,7 +61,14 @@ func TestParseErrors(t *testing.T) {
 		name, src, want string
 	}{
 		{"format", `{"format":"other/1","name":"x","molecules":[{"file":"h2.xyz"}],"levels":[{"method":"hf","basis":"sto-3g"}],"tasks":[{"task":"energy"}]}`, `format is "other/1"`},
-		{"unknown field", `{"format":"moltrail-study/1","name":"x","colour":"red"}`, `unknown field "colour"`},
+		{"unknown field", `{"format":"moltrail-study/1","name":"x","colour":"red"}`, `test.json: line 1, column 41: unknown key "colour" at the top level (keys there: `},
+		{"key slip in a task", "{\n  \"format\": \"moltrail-study/1\",\n  \"name\": \"x\",\n  \"molecules\": [{\"file\": \"h2.xyz\"}],\n  \"levels\": [{\"method\": \"hf\", \"basis\": \"sto-3g\"}],\n  \"tasks\": [{\"task\": \"energy\", \"level\": [\"hf/sto-3g\"]}]\n}",
+			`test.json: line 6, column 32: unknown key "level" in tasks[0]; did you mean "levels"?`},
+		{"key slip at the top", `{"format":"moltrail-study/1","name":"x","level":[]}`, `line 1, column 41: unknown key "level" at the top level; did you mean "levels"?`},
+		{"key slip in scf", base(`[{"method":"hf","basis":"sto-3g","scf":{"max_iteration":3}}]`, `[{"task":"energy"}]`), `unknown key "max_iteration" in levels[0].scf; did you mean "max_iterations"?`},
+		{"placed build error", "{\n  \"format\": \"moltrail-study/1\",\n  \"name\": \"x\",\n  \"molecules\": [{\"file\": \"h2.xyz\"}],\n  \"levels\": [\n    {\"method\": \"cisd\", \"basis\": \"sto-3g\"}],\n  \"tasks\": [{\"task\": \"energy\"}]\n}",
+			`test.json: line 6, column 5: levels[0]: method "cisd" is not known`},
+		{"type error", "{\n\"format\": \"moltrail-study/1\",\n\"name\": 3}", "line 3, column "},
 		{"syntax line", "{\n\"format\": \"moltrail-study/1\",\n\"name\": ,\n}", "line 3"},
 		{"missing file", `{"format":"moltrail-study/1","name":"x","molecules":[{"file":"nope.xyz"}],"levels":[{"method":"hf","basis":"sto-3g"}],"tasks":[{"task":"energy"}]}`, `molecules[0]: file "nope.xyz"`},
 		{"file and xyz", `{"format":"moltrail-study/1","name":"x","molecules":[{"file":"h2.xyz","xyz":"x"}],"levels":[{"method":"hf","basis":"sto-3g"}],"tasks":[{"task":"energy"}]}`, "not both"},
@@ -80,7 +87,7 @@ func TestParseErrors(t *testing.T) {
 		{"unknown molecule in task", base(`[{"method":"hf","basis":"sto-3g"}]`, `[{"task":"energy","molecules":["water"]}]`), `molecule "water" is not in the study (molecules: dihydrogen)`},
 		{"own geometry", base(`[{"method":"hf","basis":"sto-3g"}]`, `[{"task":"optimize","geometry_from":"hf/sto-3g"}]`), "cannot start from its own optimised geometry"},
 		{"memory limit without unit", `{"format":"moltrail-study/1","name":"x","memory_limit":"8","molecules":[{"file":"h2.xyz"}],"levels":[{"method":"hf","basis":"sto-3g"}],"tasks":[{"task":"energy"}]}`, `memory_limit: memory size "8" needs a unit`},
-		{"bad scf value", base(`[{"method":"hf","basis":"sto-3g","scf":{"max_iterations":0}}]`, `[{"task":"energy"}]`), "schemas/study.schema.json"},
+		{"bad scf value", base(`[{"method":"hf","basis":"sto-3g","scf":{"max_iterations":0}}]`, `[{"task":"energy"}]`), "schemas/study.schema.json: line 1, column 139: field /levels/0/scf/max_iterations"},
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
@@ -674,5 +681,21 @@ func TestFrequencyItemsAndMoleculeFiles(t *testing.T) {
 	want := "a optimize freq=false; a frequencies freq=true; b optimize freq=true"
 	if strings.Join(got, "; ") != want {
 		t.Errorf("items %q, want %q", strings.Join(got, "; "), want)
+	}
+}
+
+// TestNearestKey: a slip of a letter or two is matched to the key meant;
+// a word far from every key is not.
+func TestNearestKey(t *testing.T) {
+	keys := []string{"id", "method", "basis", "methods", "basis_sets", "frozen_core", "grid"}
+	for word, want := range map[string]string{
+		"level": "", "basis_set": "basis_sets", "Method": "method", "frozencore": "frozen_core", "metod": "method", "colour": "", "gird": "grid",
+	} {
+		if got := nearest(word, keys); got != want {
+			t.Errorf("nearest(%q) = %q, want %q", word, got, want)
+		}
+	}
+	if nearest("level", []string{"levels", "tasks"}) != "levels" {
+		t.Error(`"level" should suggest "levels"`)
 	}
 }

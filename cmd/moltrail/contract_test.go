@@ -171,6 +171,8 @@ func TestBadInputContract(t *testing.T) {
 		{"trace not a number", []string{"trace", "--archive", f.arch, "abc"}, `"abc" is not a number`},
 		{"trace unknown unit", []string{"trace", "--archive", f.arch, "1.5", "--unit", "furlong"}, `--unit "furlong" is not known`},
 		{"basis unknown name", []string{"basis", "no-such-basis"}, "no library set is called no-such-basis"},
+		// Study files: the place and the key meant.
+		{"study key slip", []string{"study", "--archive", fresh, writeFile(t, d, "slip.json", "{\n  \"format\": \"moltrail-study/1\",\n  \"name\": \"x\",\n  \"level\": []\n}\n")}, `slip.json: line 4, column 3: unknown key "level" at the top level; did you mean "levels"?`},
 	}
 	before := f.snapshot(t, f.arch)
 	for _, c := range cases {
