@@ -673,3 +673,41 @@ func TestNotesTravel(t *testing.T) {
 		t.Errorf("refusals should say why: %+v", rep.Refused)
 	}
 }
+
+// TestDiffNoise: a difference below one unit of the last printed digit
+// (1e-10 hartree, 1e-6 D) is noise; above it, or a quantity on one side
+// only, is a real difference.
+func TestDiffNoise(t *testing.T) {
+	a := fixture(t, 1, "hf", "sto-3g", nil, t0)
+	b := *a
+	b.Results.EnergyHartree += 3e-11   // noise
+	b.Results.SCFEnergyHartree += 2e-9 // real
+	d1 := [3]float64{0, 0, 4e-7}       // noise
+	d2 := [3]float64{0, 0, 2e-6}       // real
+	b.Results.DipoleDebye, b.Results.SCFDipoleDebye = &d1, &d2
+	c := 0.1
+	b.Results.CorrelationEnergyHartree = &c // on one side only
+	b.ID = ""
+	if err := b.Seal(); err != nil {
+		t.Fatal(err)
+	}
+	want := map[string]bool{"energy_hartree": true, "scf_energy_hartree": false, "dipole_debye.z": true, "dipole_debye magnitude": true,
+		"scf_dipole_debye.z": false, "scf_dipole_debye magnitude": false, "correlation_energy_hartree": false,
+		// a lists no SCF dipole (it equals the dipole there): b's is on one side only.
+		"scf_dipole_debye.x": false, "scf_dipole_debye.y": false}
+	got := map[string]bool{}
+	for _, r := range Diff(a, &b).Results {
+		got[r.Quantity] = r.Noise
+		if r.Resolution == 0 {
+			t.Errorf("%s: no printed resolution", r.Quantity)
+		}
+	}
+	for q, noise := range want {
+		if n, ok := got[q]; !ok || n != noise {
+			t.Errorf("%s: noise %v (listed %v), want %v", q, n, ok, noise)
+		}
+	}
+	if len(got) != len(want) {
+		t.Errorf("differences %v, want those of %v", got, want)
+	}
+}

@@ -23,6 +23,10 @@ type ResultDiff struct {
 	B        *float64 `json:"b"`
 	Abs      *float64 `json:"abs_difference,omitempty"`
 	Rel      *float64 `json:"rel_difference,omitempty"`
+	// Noise: both values are present and differ by less than one unit of
+	// the last decimal moltrail prints the quantity with (Resolution).
+	Noise      bool    `json:"noise"`
+	Resolution float64 `json:"printed_resolution"`
 }
 
 // RecordDiff is what differs between two records.
@@ -67,7 +71,8 @@ func leaves(v any) map[string]any {
 // Diff compares two records: every canonical-input field that differs,
 // the code fields that differ, and every quantity (see Quantities) whose
 // value differs, with absolute and — where the reference value is not
-// near zero — relative difference.
+// near zero — relative difference, marked as noise when the difference is
+// below the printed resolution of its kind.
 func Diff(a, b *Record) RecordDiff {
 	d := RecordDiff{A: a.ID, B: b.ID, Input: []FieldDiff{}, Code: DiffCode(a.Code, b.Code), Status: []FieldDiff{}, Results: []ResultDiff{}}
 	if d.Code == nil {
@@ -120,7 +125,7 @@ func Diff(a, b *Record) RecordDiff {
 		o, ok := mb[q.Path]
 		if !ok {
 			v := q.Value
-			d.Results = append(d.Results, ResultDiff{Quantity: q.Path, Unit: KindUnit[q.Kind], A: &v})
+			d.Results = append(d.Results, ResultDiff{Quantity: q.Path, Unit: KindUnit[q.Kind], A: &v, Resolution: Resolution(q.Kind)})
 			continue
 		}
 		if o.Value == q.Value {
@@ -128,7 +133,8 @@ func Diff(a, b *Record) RecordDiff {
 		}
 		av, bv := q.Value, o.Value
 		abs := bv - av
-		rd := ResultDiff{Quantity: q.Path, Unit: KindUnit[q.Kind], A: &av, B: &bv, Abs: &abs}
+		rd := ResultDiff{Quantity: q.Path, Unit: KindUnit[q.Kind], A: &av, B: &bv, Abs: &abs, Resolution: Resolution(q.Kind)}
+		rd.Noise = math.Abs(abs) < rd.Resolution
 		if math.Abs(av) > 1e-6 {
 			rel := abs / math.Abs(av)
 			rd.Rel = &rel
@@ -138,7 +144,7 @@ func Diff(a, b *Record) RecordDiff {
 	for _, q := range qb {
 		if !seen[q.Path] {
 			v := q.Value
-			d.Results = append(d.Results, ResultDiff{Quantity: q.Path, Unit: KindUnit[q.Kind], B: &v})
+			d.Results = append(d.Results, ResultDiff{Quantity: q.Path, Unit: KindUnit[q.Kind], B: &v, Resolution: Resolution(q.Kind)})
 		}
 	}
 	return d

@@ -18,6 +18,20 @@ const (
 // KindUnit is the unit of each kind's values.
 var KindUnit = map[string]string{KindEnergy: "hartree", KindDipole: "D", KindQuadrupole: "D·Å", KindLength: "Å", KindAngle: "degrees"}
 
+// KindDecimals are the decimals moltrail prints each kind with (in its
+// unit above): one unit of the last of them is the printed resolution,
+// below which two values are the same figure for a reader (see Diff).
+var KindDecimals = map[string]int{KindEnergy: 10, KindDipole: 6, KindQuadrupole: 6, KindLength: 6, KindAngle: 4}
+
+// Resolution is one unit of the last printed decimal of a kind.
+func Resolution(kind string) float64 {
+	d, ok := KindDecimals[kind]
+	if !ok {
+		d = 10
+	}
+	return math.Pow(10, -float64(d))
+}
+
 // Quantity is one numeric result of a record.
 type Quantity struct {
 	Path  string  `json:"path"`

@@ -276,14 +276,42 @@ func cmdDiff(args []string, stdout, stderr io.Writer) int {
 	for _, s := range d.Status {
 		fmt.Fprintf(stdout, "\n» %s: A %s, B %s\n", s.Field, cell(s.A), cell(s.B))
 	}
-	if section("results", len(d.Results)) {
+	var real, noise []archive.ResultDiff
+	for _, r := range d.Results {
+		if r.Noise {
+			noise = append(noise, r)
+		} else {
+			real = append(real, r)
+		}
+	}
+	results := func(rs []archive.ResultDiff) {
 		t := &table{head: []string{"quantity", "A", "B", "B − A", "relative", "unit"}, right: []bool{false, true, true, true, true}}
-		for _, r := range d.Results {
+		for _, r := range rs {
 			t.add(r.Quantity, pnum(r.A), pnum(r.B), pexp(r.Abs), pexp(r.Rel), r.Unit)
 		}
 		t.write(stdout)
 	}
+	if section("results", len(real)) {
+		results(real)
+	}
+	if len(noise) > 0 {
+		fmt.Fprintf(stdout, "\n» numerical noise: %d quantity(ies) differ by less than one unit of the last digit moltrail prints (%s)\n", len(noise), resolutions(noise))
+		results(noise)
+	}
 	return exitOK
+}
+
+// resolutions names the printed resolution of each unit among rs.
+func resolutions(rs []archive.ResultDiff) string {
+	var out []string
+	seen := map[string]bool{}
+	for _, r := range rs {
+		if !seen[r.Unit] {
+			seen[r.Unit] = true
+			out = append(out, fmt.Sprintf("%g %s", r.Resolution, r.Unit))
+		}
+	}
+	return strings.Join(out, ", ")
 }
 
 func cell(v any) string {

@@ -797,3 +797,33 @@ func TestNotesTravelWithExport(t *testing.T) {
 		t.Errorf("verify: %s", v)
 	}
 }
+
+// TestDiffSeparatesNoise: diff lists differences below the printed
+// precision apart from the real ones.
+func TestDiffSeparatesNoise(t *testing.T) {
+	f := newContractFixture(t)
+	a := decodeRecord(t, call("show", "--archive", f.arch, "--json", f.ids[0]).stdout)
+	b := *a
+	b.Results.EnergyHartree += 4e-11
+	b.Results.NuclearRepulsionHartree += 1e-8
+	b.Lineage, b.ID, b.Signature = nil, "", nil
+	if err := b.Seal(); err != nil {
+		t.Fatal(err)
+	}
+	enc, _ := b.Encode()
+	if r := call("import", "--archive", f.arch, writeFile(t, f.dir, "b.jsonl", string(enc)+"\n")); r.code != 0 {
+		t.Fatalf("import: %s", r.stderr)
+	}
+	out := call("diff", "--archive", f.arch, a.ID, b.ID).stdout
+	real, noise, ok := strings.Cut(out, "» numerical noise: 1 quantity(ies) differ by less than one unit of the last digit moltrail prints (1e-10 hartree)")
+	if !ok || !strings.Contains(real, "» results: 1 difference(s)") || !strings.Contains(real, "nuclear_repulsion_hartree") || !strings.Contains(noise, "energy_hartree") || strings.Contains(noise, "nuclear_repulsion") {
+		t.Errorf("diff should list the repulsion as real and the energy as noise:\n%s", out)
+	}
+	var js archive.RecordDiff
+	json.Unmarshal([]byte(call("diff", "--archive", f.arch, "--json", a.ID, b.ID).stdout), &js)
+	for _, r := range js.Results {
+		if (r.Quantity == "energy_hartree") != r.Noise {
+			t.Errorf("JSON: %s noise %v", r.Quantity, r.Noise)
+		}
+	}
+}
