@@ -7,6 +7,7 @@ import (
 	"strings"
 
 	"moltrail/archive"
+	"moltrail/compare"
 )
 
 func init() {
@@ -150,11 +151,29 @@ func num(v float64) string {
 	return fmt.Sprintf("%.10g", v)
 }
 
+// traceHelp says what trace searches.
+const traceHelp = `Finds the records, quantities and settings behind a printed figure: every
+stored quantity (energies, dipole and quadrupole components, bond lengths and
+angles) that rounds to it, and every number of the comparison that compare
+and report print with the same selection (--refs and the filters): computed
+and reference values, deviations, statistics and level differences, with
+the records they rest on. --refs none searches the stored quantities only.
+A study's document compares exactly the study's records: select them with
+the study's tags (--tag) to rebuild that comparison.
+`
+
+// traceComparison is what trace found in the rebuilt comparison.
+type traceComparison struct {
+	ReferenceSet string           `json:"reference_set"`
+	Records      int              `json:"records"`
+	Figures      []compare.Figure `json:"figures"`
+}
+
 func cmdTrace(args []string, stdout, stderr io.Writer) int {
-	fs := newFlags("trace", stderr, "VALUE [--unit UNIT] [filters] [--json]")
+	fs := newFlags("trace", stderr, "VALUE [--unit UNIT] [--refs SET] [filters] [--json]\n\n"+traceHelp)
 	af := addArchiveFlags(fs)
-	ff := addFilterFlags(fs)
-	unit := fs.String("unit", "", "`UNIT` of the figure: "+archive.UnitNames()+" (default: each quantity in its stored unit)")
+	cf := addComparisonFlags(fs)
+	unit := fs.String("unit", "", "`UNIT` of the figure: "+archive.UnitNames()+", or % for relative deviations (default: each number in its own unit)")
 	asJSON := fs.Bool("json", false, "print the matches as JSON")
 	pos, code, ok := parseFlags(fs, args)
 	if !ok {
@@ -164,12 +183,26 @@ func cmdTrace(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintln(stderr, "moltrail trace: give one printed figure, e.g. moltrail trace 1.93 --unit D")
 		return exitUsage
 	}
-	f, err := ff.filter()
+	var sel *comparison
+	var f archive.Filter
+	var err error
+	if strings.EqualFold(*cf.refs, "none") {
+		f, err = cf.filter.filter()
+	} else if sel, err = cf.resolve(); err == nil {
+		f = sel.filter
+	}
 	if err != nil {
 		return fail(stderr, exitUsage, "trace", err)
 	}
-	if _, err := archive.ParsePrinted(pos[0]); err != nil {
+	pv, err := archive.ParsePrinted(pos[0])
+	if err != nil {
 		return fail(stderr, exitUsage, "trace", err)
+	}
+	percent := strings.TrimSpace(*unit) == "%"
+	if !percent {
+		if _, _, err := archive.Trace(nil, pos[0], *unit); err != nil {
+			return fail(stderr, exitUsage, "trace", err)
+		}
 	}
 	st, code, err := af.open(true, stderr)
 	if err != nil {
@@ -180,39 +213,94 @@ func cmdTrace(args []string, stdout, stderr io.Writer) int {
 	if err != nil {
 		return fail(stderr, exitFailed, "trace", err)
 	}
-	ms, pv, err := archive.Trace(recs, pos[0], *unit)
-	if err != nil {
-		return fail(stderr, exitUsage, "trace", err)
+	var ms []archive.TraceMatch
+	if !percent {
+		if ms, pv, err = archive.Trace(recs, pos[0], *unit); err != nil {
+			return fail(stderr, exitUsage, "trace", err)
+		}
+	}
+	var tc *traceComparison
+	if sel != nil {
+		crecs, err := selectRecordsForComparison(st, sel.set, sel.filter, stderr)
+		if err != nil {
+			return fail(stderr, exitFailed, "trace", err)
+		}
+		tab, err := compare.Compare(sel.set, crecs, sel.options)
+		if err != nil {
+			return fail(stderr, exitUsage, "trace", err)
+		}
+		tc = &traceComparison{ReferenceSet: tab.RefSet.Name, Records: len(crecs), Figures: []compare.Figure{}}
+		// A unit the comparison does not use (hartree for energies is
+		// fine, a figure in bohr of a deviation is not) finds nothing there.
+		if figs, err := compare.Figures(tab, pv.Low, pv.High, *unit); err == nil {
+			tc.Figures = append(tc.Figures, figs...)
+		}
 	}
 	if *asJSON {
 		if ms == nil {
 			ms = []archive.TraceMatch{}
 		}
-		printJSON(stdout, map[string]any{"figure": pv, "unit": *unit, "matches": ms})
+		printJSON(stdout, map[string]any{"figure": pv, "unit": *unit, "matches": ms, "comparison": tc})
 		return exitOK
 	}
 	fmt.Fprintf(stdout, "%s stands for %.10g ≤ x < %.10g; searched %d record(s)\n", pv.Text, pv.Low, pv.High, len(recs))
 	if len(ms) == 0 {
 		fmt.Fprintln(stdout, "no stored quantity prints as this figure")
-		return exitOK
+	} else {
+		t := &table{head: []string{"record", "molecule", "quantity", "value", "unit", "level", "scf ΔE tol", "code", "started UTC", ""}, right: []bool{false, false, false, true}}
+		for _, m := range ms {
+			note := ""
+			if m.MagnitudeOnly {
+				note = "magnitude only (sign differs)"
+			}
+			t.add(m.RecordID[:12], m.Molecule, m.Quantity, fmt.Sprintf("%.8g", m.Value), m.Unit, m.Level+angularMark(m.Angular)+fitNote(m.FitSet, " "),
+				fmt.Sprintf("%.0e", m.EnergyTol), codeLabel(m.Version, m.Revision), utc(m.StartUTC), note)
+		}
+		t.write(stdout)
+		for _, m := range ms {
+			for _, in := range m.DerivedFrom {
+				fmt.Fprintf(stdout, "%s is derived (%s): %s %s  %s/%s\n", m.RecordID[:12], m.Recipe, in.Role, in.ID[:12], in.Method, in.Basis)
+			}
+		}
 	}
-	t := &table{head: []string{"record", "molecule", "quantity", "value", "unit", "level", "scf ΔE tol", "code", "started UTC", ""}, right: []bool{false, false, false, true}}
-	for _, m := range ms {
+	n := len(ms)
+	if tc != nil {
+		writeTraceComparison(stdout, tc)
+		n += len(tc.Figures)
+	}
+	fmt.Fprintf(stdout, "%d match(es). A match says only that the figure is consistent with a stored or compared value; check the settings against the source of the figure.\n", n)
+	return exitOK
+}
+
+// writeTraceComparison prints the numbers of the comparison that match.
+func writeTraceComparison(w io.Writer, tc *traceComparison) {
+	fmt.Fprintf(w, "\nIn the comparison with %s over %d record(s) (as compare and report print it with this selection): ", tc.ReferenceSet, tc.Records)
+	if len(tc.Figures) == 0 {
+		fmt.Fprintln(w, "no number prints as this figure")
+		return
+	}
+	fmt.Fprintf(w, "%d number(s)\n", len(tc.Figures))
+	t := &table{head: []string{"part", "what", "level", "kind", "molecule / quantity", "value", "unit", "records", ""}, right: []bool{false, false, false, false, false, true}}
+	for _, f := range tc.Figures {
+		what := strings.TrimSpace(f.Molecule + " " + f.Quantity)
+		if f.Part != "deviation" && f.N > 0 {
+			what = strings.TrimSpace(fmt.Sprintf("n = %d %s", f.N, f.Quantity))
+		}
+		var ids []string
+		for i, id := range f.Records {
+			if i == 3 {
+				ids = append(ids, fmt.Sprintf("+%d more", len(f.Records)-3))
+				break
+			}
+			ids = append(ids, shortID(id))
+		}
 		note := ""
-		if m.MagnitudeOnly {
+		if f.MagnitudeOnly {
 			note = "magnitude only (sign differs)"
 		}
-		t.add(m.RecordID[:12], m.Molecule, m.Quantity, fmt.Sprintf("%.8g", m.Value), m.Unit, m.Level+angularMark(m.Angular)+fitNote(m.FitSet, " "),
-			fmt.Sprintf("%.0e", m.EnergyTol), codeLabel(m.Version, m.Revision), utc(m.StartUTC), note)
+		t.add(f.Part, f.What, f.Level, f.Kind, what, fmt.Sprintf("%.8g", f.Value), f.Unit, strings.Join(ids, " "), note)
 	}
-	t.write(stdout)
-	for _, m := range ms {
-		for _, in := range m.DerivedFrom {
-			fmt.Fprintf(stdout, "%s is derived (%s): %s %s  %s/%s\n", m.RecordID[:12], m.Recipe, in.Role, in.ID[:12], in.Method, in.Basis)
-		}
-	}
-	fmt.Fprintf(stdout, "%d match(es). A match says only that the figure is consistent with a stored value; check the settings against the source of the figure.\n", len(ms))
-	return exitOK
+	t.write(w)
 }
 
 func cmdDiff(args []string, stdout, stderr io.Writer) int {

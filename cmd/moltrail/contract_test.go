@@ -827,3 +827,65 @@ func TestDiffSeparatesNoise(t *testing.T) {
 		}
 	}
 }
+
+// TestTraceFindsComparison: trace finds a deviation and a statistic that
+// compare prints, with the record behind them, and leaves the comparison
+// out with --refs none.
+func TestTraceFindsComparison(t *testing.T) {
+	d := t.TempDir()
+	arch := filepath.Join(d, "arch")
+	xyz := writeFile(t, d, "hf.xyz", "2\nhydrogen fluoride\nH 0 0 0\nF 0 0 0.917\n")
+	opt := call("run", "--archive", arch, "--basis", "sto-3g", "--task", "optimize", "--json", xyz)
+	if opt.code != 0 {
+		t.Fatal(opt.stderr)
+	}
+	id := decodeRecord(t, opt.stdout).ID
+	var tab struct {
+		Deviations []struct {
+			Kind   string  `json:"kind"`
+			Signed float64 `json:"signed_deviation"`
+		} `json:"deviations"`
+	}
+	if err := json.Unmarshal([]byte(call("compare", "--archive", arch, "--json").stdout), &tab); err != nil {
+		t.Fatal(err)
+	}
+	var fig string
+	for _, dv := range tab.Deviations {
+		if dv.Kind == "bond_length" {
+			fig = fmt.Sprintf("%.2f", dv.Signed) // as the report prints it
+		}
+	}
+	if fig == "" {
+		t.Fatalf("no bond-length deviation to trace: %+v", tab)
+	}
+	var js struct {
+		Comparison *struct {
+			ReferenceSet string `json:"reference_set"`
+			Figures      []struct {
+				Part    string   `json:"part"`
+				What    string   `json:"what"`
+				Records []string `json:"records"`
+			} `json:"figures"`
+		} `json:"comparison"`
+	}
+	r := call("trace", "--archive", arch, fig, "--json")
+	if err := json.Unmarshal([]byte(r.stdout), &js); err != nil || js.Comparison == nil {
+		t.Fatalf("trace %s --json: %v %s", fig, err, r.stderr)
+	}
+	found := map[string]bool{}
+	for _, f := range js.Comparison.Figures {
+		if len(f.Records) == 1 && f.Records[0] == id {
+			found[f.Part+"/"+f.What] = true
+		}
+	}
+	if !found["deviation/signed deviation"] || !found["statistics/MSE"] {
+		t.Errorf("trace %s did not find the deviation and the MSE of record %s: %+v", fig, id[:12], js.Comparison.Figures)
+	}
+	if out := call("trace", "--archive", arch, fig).stdout; !strings.Contains(out, "In the comparison with builtin over 1 record(s)") || !strings.Contains(out, "signed deviation") {
+		t.Errorf("trace text:\n%s", out)
+	}
+	json.Unmarshal([]byte(call("trace", "--archive", arch, fig, "--refs", "none", "--json").stdout), &js)
+	if js.Comparison != nil {
+		t.Error("--refs none should leave the comparison out")
+	}
+}
