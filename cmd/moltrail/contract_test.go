@@ -528,6 +528,7 @@ func TestGlobalFlagsBeforeCommand(t *testing.T) {
 		{[]string{"--archive=" + f.arch, "--json", "list"}, []string{"list", "--json", "--archive", f.arch}},
 		{[]string{"--json", "--archive", f.arch, "--wait", "1s", "show", f.ids[0][:8]}, []string{"show", f.ids[0][:8], "--json", "--archive", f.arch}},
 		{[]string{"--archive", f.arch, "verify", "--json"}, []string{"verify", "--archive", f.arch, "--json"}},
+		{[]string{"--archive", f.arch, "help", "list"}, []string{"help", "list"}},
 	} {
 		b, a := call(c.before...), call(c.after...)
 		if b.code != 0 || b.stdout != a.stdout || b.code != a.code {

@@ -142,6 +142,9 @@ func hoistGlobalFlags(args []string) ([]string, error) {
 	if i >= len(args) || args[i] == "--" {
 		return nil, fmt.Errorf("give a command after %s (moltrail help lists them)", strings.Join(lead, " "))
 	}
+	if args[i] == "help" {
+		return args[i:], nil // help takes no flags; the ones before it change nothing
+	}
 	out := append([]string{args[i]}, lead...)
 	return append(out, args[i+1:]...), nil
 }
