@@ -214,3 +214,30 @@ func GeometryWords(r *Record, look Lookup) string {
 	}
 	return "is the geometry given as input"
 }
+
+// SCFLevelLabel is the label of a correlated record's SCF density: the
+// reference method at the record's basis, on the record's geometry —
+// "HF/6-31G*//MP2(fc)/6-31G*" for the HF density of an MP2 optimisation,
+// "UHF/cc-pVDZ//HF/6-31G*" for that of a UMP2 single point on an HF
+// structure, plain "HF/6-31G*" at an input geometry.
+func SCFLevelLabel(r *Record, look Lookup) string {
+	ref := engine.Job{Method: r.Input.Reference, Reference: r.Input.Reference, Basis: r.Input.Basis}
+	if ref.Method == "rhf" || ref.Method == "" {
+		ref.Method = "hf"
+	}
+	own := JobLevel(&ref)
+	g := GeometryOf(r, look)
+	switch g.Kind {
+	case GeometryOptimised:
+		if l := JobLevel(&r.Input); l != own {
+			return own + "//" + l
+		}
+	case GeometryBorrowed:
+		if g.SourceLevel != own {
+			return own + "//" + g.SourceLevel
+		}
+	case GeometryUnresolved:
+		return own + "//record " + short(g.Source)
+	}
+	return own
+}

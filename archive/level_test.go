@@ -107,6 +107,14 @@ func TestLevelLabelGeometrySource(t *testing.T) {
 			t.Errorf("%s: geometry kind %q, want %q", c.name, g.Kind, c.kind)
 		}
 	}
+	for _, c := range []struct {
+		r    *Record
+		want string
+	}{{sp, "HF/cc-pVDZ//HF/6-31G*"}, {reopt, "HF/cc-pVDZ//MP2(fc)/cc-pVDZ"}, {input, "HF/cc-pVDZ"}} {
+		if got := SCFLevelLabel(c.r, look); got != c.want {
+			t.Errorf("SCF label of %s: %q, want %q", LevelLabel(c.r, look), got, c.want)
+		}
+	}
 	if w := GeometryWords(sp, look); w != "is the structure optimised at HF/6-31G* (record "+opt.ID[:12]+")" {
 		t.Errorf("geometry words %q", w)
 	}

@@ -29,6 +29,14 @@ type Options struct {
 	// CancelDipole and CancelQuad: cancellation ratios above these are flagged.
 	CancelDipole float64
 	CancelQuad   float64
+	// SCFMoments: a correlated record without moments of its own level
+	// contributes its SCF density's moments under the SCF level's label
+	// (archive.SCFLevelLabel, e.g. "HF/6-31G*//MP2(fc)/6-31G*"), never under
+	// its own.
+	SCFMoments bool
+	// PropertyGeometry overrides the reference set's property-geometry
+	// rule (GeometryRuleOptimised or GeometryRuleInput; "" = the set's).
+	PropertyGeometry string
 	// Lookup finds archived records outside the compared ones, to name the
 	// level a borrowed geometry was optimised at (nil: only the records
 	// compared are searched).
@@ -73,6 +81,7 @@ func (o Options) withDefaults() Options {
 	if o.CancelQuad > 0 {
 		d.CancelQuad = o.CancelQuad
 	}
+	d.SCFMoments, d.PropertyGeometry, d.Lookup = o.SCFMoments, o.PropertyGeometry, o.Lookup
 	return d
 }
 
@@ -147,10 +156,15 @@ type recMol struct {
 	symbols []string
 	geomA   [][3]float64
 	counts  map[string]int
+	// geometry is the record's geometry source kind (archive.GeometryOf).
+	geometry string
+	// scfView: this is the SCF density of a correlated record, standing
+	// for its own level (archive.SCFLevelLabel) and for moments only.
+	scfView bool
 }
 
 func newRecMol(r *archive.Record, look archive.Lookup) *recMol {
-	m := &recMol{rec: r, level: levelOf(r, look), counts: map[string]int{}}
+	m := &recMol{rec: r, level: levelOf(r, look), counts: map[string]int{}, geometry: archive.GeometryOf(r, look).Kind}
 	if len(r.Results.GeometryAngstrom) > 0 {
 		for _, a := range r.Results.GeometryAngstrom {
 			m.symbols = append(m.symbols, a.Symbol)
@@ -243,10 +257,32 @@ func usesAtomOrder(kind string) bool {
 }
 
 func purposeOf(kind string) string {
-	if kind == KindBondLength || kind == KindAngle {
+	switch kind {
+	case KindBondLength, KindAngle:
 		return PurposeStructure
+	case KindEnergy, KindEnergyDelta:
+		return PurposeEnergy
 	}
 	return PurposeProperties
+}
+
+// correlated reports whether a method's numbers come from a correlated
+// wavefunction on top of its SCF reference (MP2 family, coupled cluster):
+// such a level's moments are its own density's or none.
+func correlated(method string) bool {
+	f := engine.Methods[method].Family
+	return f != "" && f != "hf" && f != "dft"
+}
+
+// geometryRule is the property-geometry rule in force.
+func geometryRule(set *RefSet, o Options) string {
+	if o.PropertyGeometry != "" {
+		return o.PropertyGeometry
+	}
+	if set.PropertyGeometry != "" {
+		return set.PropertyGeometry
+	}
+	return GeometryRuleOptimised
 }
 
 // Compare matches records with the reference set and builds the Table.
@@ -260,7 +296,12 @@ func Compare(set *RefSet, records []*archive.Record, opt Options) (*Table, error
 		return nil, fmt.Errorf("no reference set given")
 	}
 	o := opt.withDefaults()
-	look := archive.Either(archive.LookupIn(records), opt.Lookup)
+	switch o.PropertyGeometry {
+	case "", GeometryRuleOptimised, GeometryRuleInput:
+	default:
+		return nil, fmt.Errorf("property-geometry rule %q is not known (%s or %s)", o.PropertyGeometry, GeometryRuleOptimised, GeometryRuleInput)
+	}
+	look := archive.Either(archive.LookupIn(records), o.Lookup)
 	t := &Table{
 		RefSet: RefSetInfo{Name: set.Name, Description: set.Description, Source: set.Source, Origin: set.Origin, SHA256: set.SHA256, Entries: len(set.Entries)},
 		Settings: Settings{
@@ -382,6 +423,13 @@ func Compare(set *RefSet, records []*archive.Record, opt Options) (*Table, error
 			s := slot{k, rm.level.Label}
 			cands[s] = append(cands[s], rm)
 		}
+		if v := scfView(rm, look, o); v != nil {
+			levels[v.level.Label] = v.level
+			for _, k := range matched {
+				s := slot{k, v.level.Label}
+				cands[s] = append(cands[s], v)
+			}
+		}
 	}
 	for _, l := range levels {
 		t.Levels = append(t.Levels, l)
@@ -402,6 +450,8 @@ func Compare(set *RefSet, records []*archive.Record, opt Options) (*Table, error
 		purpose string
 	}
 	picks := map[pslot]*recMol{}
+	rule := geometryRule(set, o)
+	t.Settings.PropertyGeometry, t.Settings.SCFMoments = rule, o.SCFMoments
 	pickFor := func(k molKey, level, purpose string) (*recMol, string) {
 		ps := pslot{k, level, purpose}
 		if rm, ok := picks[ps]; ok {
@@ -409,17 +459,22 @@ func Compare(set *RefSet, records []*archive.Record, opt Options) (*Table, error
 		}
 		all := cands[slot{k, level}]
 		var usable []*recMol
+		skipped := map[string]int{}
 		for _, rm := range all {
-			if purpose == PurposeStructure && rm.rec.Input.Task != "optimize" {
+			switch {
+			case purpose == PurposeStructure && (rm.geometry != archive.GeometryOptimised || rm.scfView):
+				skipped[rm.geometry]++
+				continue
+			case purpose == PurposeEnergy && rm.scfView:
+				continue
+			case purpose != PurposeStructure && !geometryAllowed(rule, rm.geometry):
+				skipped[rm.geometry]++
 				continue
 			}
 			usable = append(usable, rm)
 		}
 		if len(usable) == 0 {
-			if len(all) > 0 && purpose == PurposeStructure {
-				return nil, fmt.Sprintf("no converged geometry optimisation at this level (%d single-point record(s) not used: their geometry is the input geometry)", len(all))
-			}
-			return nil, "no converged record at this level"
+			return nil, unusable(purpose, rule, skipped)
 		}
 		sort.Slice(usable, func(i, j int) bool {
 			a, b := usable[i].rec, usable[j].rec
@@ -430,15 +485,13 @@ func Compare(set *RefSet, records []*archive.Record, opt Options) (*Table, error
 		})
 		rm := usable[0]
 		picks[ps] = rm
-		reason := "the only converged record"
+		what := "converged records at " + geometryPhrase(rule)
 		if purpose == PurposeStructure {
-			reason = "the only converged geometry optimisation"
+			what = "converged geometry optimisations"
 		}
+		reason := "the only one of the " + what
 		if len(usable) > 1 {
-			reason = fmt.Sprintf("newest of %d converged records", len(usable))
-			if purpose == PurposeStructure {
-				reason = fmt.Sprintf("newest of %d converged geometry optimisations", len(usable))
-			}
+			reason = fmt.Sprintf("newest of %d %s", len(usable), what)
 		}
 		m := mols[k].mol
 		t.Picked = append(t.Picked, Pick{Molecule: m.Name, Formula: m.Formula, Level: level, Purpose: purpose, RecordID: rm.rec.ID,
@@ -456,7 +509,7 @@ func Compare(set *RefSet, records []*archive.Record, opt Options) (*Table, error
 			var err error
 			if e.Quantity.Kind == KindEnergyDelta {
 				dev, ctx, why = energyDelta(e, lv.Label, func(m *RefMolecule) (*recMol, string) {
-					return pickFor(keys[m], lv.Label, PurposeProperties)
+					return pickFor(keys[m], lv.Label, PurposeEnergy)
 				})
 			} else {
 				rm, reason := pickFor(keys[&e.Molecule], lv.Label, purposeOf(e.Quantity.Kind))
@@ -592,20 +645,39 @@ func (m *recMol) molecule() *molecule.Molecule {
 	return mol
 }
 
-// props returns the properties block that belongs to the record's level
-// (level properties when present, else the SCF ones), or nil.
+// props returns the properties block of the density that stands for the
+// record's level: the level's own (relaxed) density when there is one; the
+// SCF density for an SCF level or an SCF view; else nil.
 func (m *recMol) props() *engine.Properties {
-	if m.rec.Results.LevelProperties != nil {
-		return m.rec.Results.LevelProperties
+	r := &m.rec.Results
+	switch {
+	case m.scfView:
+		return r.SCFProperties
+	case r.LevelProperties != nil:
+		return r.LevelProperties
+	case correlated(m.rec.Input.Method):
+		return nil
 	}
-	return m.rec.Results.SCFProperties
+	return r.SCFProperties
+}
+
+// noMoments says why a record has no moments at its level.
+func (m *recMol) noMoments(what string) string {
+	if correlated(m.rec.Input.Method) && !m.scfView {
+		return fmt.Sprintf("no %s at %s: record %s was run without relaxed properties, and the SCF density's moments it holds are not this level's (compare's SCF-moments option compares them under the label %s)",
+			what, m.level.Label, shortID(m.rec.ID), archive.SCFLevelLabel(m.rec, nil))
+	}
+	return fmt.Sprintf("record %s has no %s", shortID(m.rec.ID), what)
 }
 
 // moments returns the dipole (D), traceless quadrupole (D·Å, as a 3×3
-// tensor) and origin (Å) of one density of the record.
+// tensor) and origin (Å) of the density that stands for the record's
+// level, nil where there is none. Records without a properties block
+// (written by hand or by older builds) give their contract keys, except
+// for a correlated level, whose contract keys may hold the SCF moments.
 func (m *recMol) moments() (mu *[3]float64, theta *[3][3]float64, originA [3]float64) {
 	r := &m.rec.Results
-	if p := m.props(); p != nil && m.rec.Results.LevelProperties != nil {
+	if p := m.props(); p != nil {
 		d := p.DipoleDebye
 		mu = &d
 		q := p.QuadrupoleBuckingham
@@ -616,6 +688,9 @@ func (m *recMol) moments() (mu *[3]float64, theta *[3][3]float64, originA [3]flo
 		originA = scale(p.OriginBohr, molecule.BohrAngstrom)
 		return
 	}
+	if correlated(m.rec.Input.Method) {
+		return nil, nil, originA
+	}
 	mu = r.DipoleDebye
 	if r.QuadrupoleBuckingham != nil {
 		th := tensor(*r.QuadrupoleBuckingham)
@@ -623,6 +698,63 @@ func (m *recMol) moments() (mu *[3]float64, theta *[3][3]float64, originA [3]flo
 	}
 	originA = scale(r.MultipoleOriginBohr, molecule.BohrAngstrom)
 	return
+}
+
+// scfView returns the SCF-density view of a correlated record that holds
+// no moments of its own level, when the options ask for one (else nil).
+func scfView(rm *recMol, look archive.Lookup, o Options) *recMol {
+	r := rm.rec
+	if !o.SCFMoments || !correlated(r.Input.Method) || r.Results.LevelProperties != nil || r.Results.SCFProperties == nil {
+		return nil
+	}
+	v := *rm
+	v.scfView = true
+	ref := r.Input.Reference
+	if ref == "rhf" || ref == "" {
+		ref = "hf"
+	}
+	v.level = Level{Label: archive.SCFLevelLabel(r, look), Method: ref, Reference: r.Input.Reference, Basis: r.Input.Basis.Name,
+		Diffuse: rm.level.Diffuse, SCFOf: rm.level.Label}
+	if g := archive.GeometryOf(r, look); g.Kind == archive.GeometryBorrowed {
+		v.level.GeometryLevel = g.SourceLevel
+	} else if g.Kind == archive.GeometryOptimised {
+		v.level.GeometryLevel = rm.level.Label
+	}
+	return &v
+}
+
+// geometryAllowed applies the property-geometry rule to a record's
+// geometry source.
+func geometryAllowed(rule, geometry string) bool {
+	if rule == GeometryRuleInput {
+		return geometry == archive.GeometryInput
+	}
+	return geometry == archive.GeometryOptimised || geometry == archive.GeometryBorrowed
+}
+
+func geometryPhrase(rule string) string {
+	if rule == GeometryRuleInput {
+		return "the input geometry"
+	}
+	return "an optimised structure"
+}
+
+// unusable says why no record of a molecule at a level serves a purpose.
+func unusable(purpose, rule string, skipped map[string]int) string {
+	n := 0
+	for _, c := range skipped {
+		n += c
+	}
+	if n == 0 {
+		return "no converged record at this level"
+	}
+	if purpose == PurposeStructure {
+		return fmt.Sprintf("no converged geometry optimisation at this level (%d single-point record(s) not used: a single point does not optimise its geometry)", n)
+	}
+	if rule == GeometryRuleInput {
+		return fmt.Sprintf("no single point at the input geometry at this level (%d record(s) at an optimised structure not used: the comparison takes properties at the input geometry)", n)
+	}
+	return fmt.Sprintf("no record at an optimised structure at this level (%d single point(s) at the input geometry not used: the comparison takes properties at each level's optimised structure; optimise, or compare with the input-geometry rule)", n)
 }
 
 func tensor(q engine.Quadrupole) [3][3]float64 {
@@ -757,7 +889,7 @@ func evaluate(e *Entry, rm *recMol) (*Deviation, *devContext, error) {
 	case KindDipoleNorm, KindDipoleAxis:
 		mu, _, _ := rm.moments()
 		if mu == nil {
-			return nil, nil, fmt.Errorf("record %s has no dipole moment", shortID(rm.rec.ID))
+			return nil, nil, fmt.Errorf("%s", rm.noMoments("dipole moment"))
 		}
 		if q.Kind == KindDipoleNorm {
 			d.Computed = norm(*mu)
@@ -779,7 +911,7 @@ func evaluate(e *Entry, rm *recMol) (*Deviation, *devContext, error) {
 	case KindQuadrupole:
 		mu, theta, oldO := rm.moments()
 		if theta == nil || mu == nil {
-			return nil, nil, fmt.Errorf("record %s has no quadrupole moment", shortID(rm.rec.ID))
+			return nil, nil, fmt.Errorf("%s", rm.noMoments("quadrupole moment"))
 		}
 		mol := rm.molecule()
 		var newO [3]float64

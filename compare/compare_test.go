@@ -196,7 +196,8 @@ func TestCarbonMonoxideFlaggedWaterNot(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	tab, err := Compare(set, coWaterRecords(t), Options{})
+	// The records are single points at the psi4 geometries: properties at the input geometry.
+	tab, err := Compare(set, coWaterRecords(t), Options{PropertyGeometry: GeometryRuleInput})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -398,7 +399,10 @@ func TestEnergyDifferenceAndLevelDiffs(t *testing.T) {
 	o2 := fixture{id: "o2", name: "dioxygen", method: "hf", basis: "cc-pVDZ", start: "2025", energy: -149.6, mult: 3, geomBohr: [][4]interface{}{{"O", 0.0, 0.0, 0.0}, {"O", 0.0, 0.0, 2.28}}}
 	w := waterOpt("w", "2025", 0.95, 104)
 	w.energy = -76.0
-	tab, err := Compare(set, []*archive.Record{h2.record(), o2.record(), w.record()}, Options{})
+	// H2 and O2 are single points: energies at the input geometry (the
+	// water optimisation is not used for it under this rule).
+	w.task = "energy"
+	tab, err := Compare(set, []*archive.Record{h2.record(), o2.record(), w.record()}, Options{PropertyGeometry: GeometryRuleInput})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -426,7 +430,8 @@ func TestEnergyDifferenceAndLevelDiffs(t *testing.T) {
 
 func TestRenderings(t *testing.T) {
 	set, _ := Builtin("builtin")
-	tab, err := Compare(set, coWaterRecords(t), Options{})
+	// The records are single points at the psi4 geometries: properties at the input geometry.
+	tab, err := Compare(set, coWaterRecords(t), Options{PropertyGeometry: GeometryRuleInput})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -457,7 +462,7 @@ func TestRenderings(t *testing.T) {
 		t.Fatalf("JSON round trip: %v", err)
 	}
 	// Same input, same bytes.
-	tab2, _ := Compare(set, coWaterRecords(t), Options{})
+	tab2, _ := Compare(set, coWaterRecords(t), Options{PropertyGeometry: GeometryRuleInput})
 	b2, _ := json.Marshal(tab2)
 	if !bytes.Equal(b, b2) {
 		t.Errorf("two runs gave different JSON")
@@ -479,7 +484,7 @@ func TestRealRecords(t *testing.T) {
 		t.Fatal(err)
 	}
 	set, _ := Builtin("builtin")
-	tab, err := Compare(set, recs, Options{})
+	tab, err := Compare(set, recs, Options{PropertyGeometry: GeometryRuleInput})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -503,8 +508,8 @@ func TestRealRecords(t *testing.T) {
 	if !has(w.Cautions, CodeDiffuse) {
 		t.Errorf("water at cc-pVDZ should carry %s", CodeDiffuse)
 	}
-	// Structure from the optimisation only; the newest water record
-	// (the optimisation) also stands for the properties.
+	// Structure from the optimisation only (properties from the single
+	// point at the input geometry, under the rule chosen above).
 	r := find(tab, "h2o.r.o0-h1", "HF/cc-pVDZ")
 	if r == nil || r.RecordID[:12] != "e78d12c90d67" {
 		t.Fatalf("water O–H should come from the optimisation e78d12c90d67: %+v", r)
@@ -611,6 +616,68 @@ func TestHillFormula(t *testing.T) {
 	} {
 		if got := hill(c.counts); got != c.want {
 			t.Errorf("hill(%v) = %s, want %s", c.counts, got, c.want)
+		}
+	}
+}
+
+// TestCorrelatedRecordWithoutItsMomentsGivesNoRowAtItsLevel: an MP2
+// optimisation that holds only SCF moments (and, as older builds wrote
+// it, the SCF dipole under dipole_debye) never contributes a moment row
+// labelled MP2; it is listed as having none at that level with the reason,
+// and on request its SCF moments are compared under a label that says so.
+func TestCorrelatedRecordWithoutItsMomentsGivesNoRowAtItsLevel(t *testing.T) {
+	set, err := Builtin("builtin")
+	if err != nil {
+		t.Fatal(err)
+	}
+	// The dipole is a fixture number (about water's SCF dipole, no source).
+	f := waterOpt("mp2none", "2025-01-01T00:00:00Z", 0.9614, 104.0)
+	f.method, f.dipoleAU = "mp2", []float64{0, 0, -0.78}
+	rec := f.record()
+	rec.Input.Correlation.RelaxedProperties = "none"
+	if rec.Results.DipoleDebye == nil || rec.Results.LevelProperties != nil {
+		t.Fatal("fixture should hold the SCF dipole under dipole_debye and no level properties")
+	}
+	const mp2, view = "MP2/cc-pVDZ", "HF/cc-pVDZ//MP2/cc-pVDZ"
+	for _, scf := range []bool{false, true} {
+		tab, err := Compare(set, []*archive.Record{rec}, Options{SCFMoments: scf})
+		if err != nil {
+			t.Fatal(err)
+		}
+		moments, structures, atView := 0, 0, 0
+		for _, d := range tab.Deviations {
+			switch {
+			case d.Level == mp2 && isMoment(d.Kind):
+				moments++
+			case d.Level == mp2:
+				structures++
+			case d.Level == view:
+				atView++
+				if !isMoment(d.Kind) {
+					t.Errorf("the SCF view gave a %s row", d.Kind)
+				}
+			}
+		}
+		if moments != 0 {
+			t.Errorf("SCF moments %v: %d moment rows labelled %s", scf, moments, mp2)
+		}
+		if structures == 0 {
+			t.Errorf("SCF moments %v: the optimisation's structure should still count at %s", scf, mp2)
+		}
+		why := ""
+		for _, u := range tab.Unmatched {
+			if u.EntryID == "h2o.mu-axis" && u.Level == mp2 {
+				why = u.Reason
+			}
+		}
+		if !strings.Contains(why, "without relaxed properties") || !strings.Contains(why, view) {
+			t.Errorf("SCF moments %v: the missing MP2 dipole should be explained, got %q", scf, why)
+		}
+		if scf && atView == 0 {
+			t.Errorf("with SCF moments the dipole and quadrupole should be compared at %s", view)
+		}
+		if !scf && atView != 0 {
+			t.Errorf("without the option no row may stand at %s", view)
 		}
 	}
 }

@@ -31,11 +31,15 @@ const RefSetFormat = "moltrail-refset/1"
 
 // RefSet is a reference set as read from its JSON file.
 type RefSet struct {
-	Format      string  `json:"format"`
-	Name        string  `json:"name"`
-	Description string  `json:"description"`
-	Source      string  `json:"source"`
-	Entries     []Entry `json:"entries"`
+	Format      string `json:"format"`
+	Name        string `json:"name"`
+	Description string `json:"description"`
+	Source      string `json:"source"`
+	// PropertyGeometry says at which geometry the set's properties and
+	// energies are to be computed: GeometryRuleOptimised (the default)
+	// or GeometryRuleInput.
+	PropertyGeometry string  `json:"property_geometry,omitempty"`
+	Entries          []Entry `json:"entries"`
 
 	// Origin and SHA256 are filled by the reader.
 	Origin string `json:"-"`
@@ -194,6 +198,12 @@ func builtinAll() (*RefSet, error) {
 		if err != nil {
 			return nil, err
 		}
+		if s.PropertyGeometry != "" {
+			if all.PropertyGeometry != "" && all.PropertyGeometry != s.PropertyGeometry {
+				return nil, fmt.Errorf("built-in sets disagree on property_geometry (%s: %q, before: %q)", s.Name, s.PropertyGeometry, all.PropertyGeometry)
+			}
+			all.PropertyGeometry = s.PropertyGeometry
+		}
 		descr = append(descr, s.Name+": "+s.Description)
 		src = append(src, s.Source)
 		all.Entries = append(all.Entries, s.Entries...)
@@ -328,6 +338,11 @@ func (s *RefSet) check() error {
 	}
 	if len(s.Entries) == 0 {
 		return fmt.Errorf("reference set %s: no entries", s.Origin)
+	}
+	switch s.PropertyGeometry {
+	case "", GeometryRuleOptimised, GeometryRuleInput:
+	default:
+		return fmt.Errorf("reference set %s: property_geometry %q is not known (%s or %s)", s.Origin, s.PropertyGeometry, GeometryRuleOptimised, GeometryRuleInput)
 	}
 	seen := map[string]int{}
 	for i := range s.Entries {

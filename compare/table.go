@@ -73,6 +73,9 @@ type Level struct {
 	// of this level were computed on, when that is another level (the B of A//B).
 	GeometryLevel string `json:"geometry_level,omitempty"`
 	FrozenCore    bool   `json:"frozen_core,omitempty"`
+	// SCFOf is set for an SCF view: the level of the correlated records
+	// whose SCF density's moments stand here.
+	SCFOf string `json:"scf_density_of,omitempty"`
 	// Diffuse says whether the basis has diffuse functions (judged from its name).
 	Diffuse bool `json:"diffuse"`
 }
@@ -89,11 +92,25 @@ type RecordInfo struct {
 	GeometryKind string `json:"geometry_kind"`
 }
 
-// Purpose values of a Pick: structures need an optimised geometry;
-// properties and energies may come from any converged record.
+// Purpose values of a Pick: structures need the level's own optimised
+// geometry; properties (moments) and energies come from records whose
+// geometry the property-geometry rule admits; energies never from an SCF
+// view of a correlated record.
 const (
 	PurposeStructure  = "structure"
 	PurposeProperties = "properties"
+	PurposeEnergy     = "energy"
+)
+
+// Property-geometry rules: which geometry properties and energies are
+// compared at.
+const (
+	// GeometryRuleOptimised: each level's optimised structure (its own
+	// optimisation, or a single point on another level's, labelled A//B).
+	GeometryRuleOptimised = "optimised"
+	// GeometryRuleInput: single points at the geometry given as input
+	// (typically the reference geometry).
+	GeometryRuleInput = "input"
 )
 
 // Pick says which record stood for one molecule at one level.
@@ -238,4 +255,8 @@ type Settings struct {
 	// CancelDipole and CancelQuad are the cancellation ratios above which a moment is flagged.
 	CancelDipole float64 `json:"cancellation_ratio_dipole"`
 	CancelQuad   float64 `json:"cancellation_ratio_quadrupole"`
+	// PropertyGeometry is the property-geometry rule applied.
+	PropertyGeometry string `json:"property_geometry"`
+	// SCFMoments says whether SCF views of correlated records were compared.
+	SCFMoments bool `json:"scf_moments_of_correlated_levels,omitempty"`
 }

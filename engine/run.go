@@ -208,9 +208,14 @@ func compute(job *Job, mol *molecule.Molecule, set *basis.Set, o RunOptions, wit
 		res.SCFProperties = pr
 		d := pr.DipoleDebye
 		res.SCFDipoleDebye = &d
-		res.DipoleDebye = &d
-		q := pr.QuadrupoleBuckingham
-		res.QuadrupoleBuckingham = &q
+		if info.Family == "hf" || info.Family == "dft" {
+			// For an SCF level the SCF density is the level's. A
+			// correlated level's moments come only from its own
+			// (relaxed) density: without one they are absent, never
+			// the SCF moments under the level's name.
+			dl, q := pr.DipoleDebye, pr.QuadrupoleBuckingham
+			res.DipoleDebye, res.QuadrupoleBuckingham = &dl, &q
+		}
 	}
 	switch info.Family {
 	case "mp2":

@@ -91,7 +91,7 @@ func coupledCluster(job *Job, mol *molecule.Molecule, mb *basis.Molecular, sr *s
 		return nil
 	}
 	if job.Correlation.RelaxedProperties != "finite-field" {
-		res.Notes = append(res.Notes, "coupled-cluster properties were not requested: dipole_debye is the reference (SCF) dipole (the finite-field route gives the "+job.Method+" dipole)")
+		res.Notes = append(res.Notes, "coupled-cluster properties were not requested: no dipole or quadrupole at the "+job.Method+" level (scf_dipole_debye holds the SCF density's; the finite-field route gives the "+job.Method+" dipole)")
 		return nil
 	}
 	origin := job.OriginBohr(mol)

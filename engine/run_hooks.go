@@ -94,7 +94,7 @@ func correlate(job *Job, mol *molecule.Molecule, mb *basis.Molecular, sr *scf.Re
 		res.QuadrupoleBuckingham = nil
 		res.Notes = append(res.Notes, "the finite-field route gives the relaxed dipole only; no quadrupole is reported at this level")
 	default:
-		res.Notes = append(res.Notes, "relaxed properties were not requested: dipole_debye is the reference (SCF) dipole")
+		res.Notes = append(res.Notes, "relaxed properties were not requested: no dipole or quadrupole at the "+job.Method+" level (scf_dipole_debye and scf_properties hold the SCF density's)")
 	}
 	return nil
 }

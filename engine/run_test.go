@@ -49,6 +49,27 @@ func TestRunWorkedWater(t *testing.T) {
 	}
 }
 
+// TestCorrelatedMomentsOnlyFromTheirDensity: an MP2 record without
+// relaxed properties has no dipole_debye or quadrupole_buckingham (the
+// contract's "dipole at the requested level"); the SCF dipole stays under
+// scf_dipole_debye.
+func TestCorrelatedMomentsOnlyFromTheirDensity(t *testing.T) {
+	j, err := NewJob(Request{Molecule: workedWater(), Method: "mp2", Basis: "sto-3g", RelaxedProps: "none"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	r, err := Run(j, RunOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if r.Status != StatusConverged || r.DipoleDebye != nil || r.QuadrupoleBuckingham != nil || r.LevelProperties != nil {
+		t.Errorf("mp2 without relaxed properties: status %s, dipole %v, quadrupole %v, level properties %v", r.Status, r.DipoleDebye, r.QuadrupoleBuckingham, r.LevelProperties)
+	}
+	if r.SCFDipoleDebye == nil || r.SCFProperties == nil {
+		t.Errorf("the SCF moments should stay under scf_dipole_debye and scf_properties")
+	}
+}
+
 func TestRunNotConverged(t *testing.T) {
 	s := DefaultSCF
 	s.MaxIter = 2

@@ -63,8 +63,19 @@ func TestCompareCommand(t *testing.T) {
 	}
 	st.Close()
 
+	// The records are single points at the input geometry: by the set's
+	// rule (each level's optimised structure) nothing is compared, and
+	// the reason says so.
 	var out, errb bytes.Buffer
 	if code := dispatch([]string{"compare", "--archive", arch, "--refs", "moments-exp", "--json"}, &out, &errb); code != exitOK {
+		t.Fatalf("exit %d: %s", code, errb.String())
+	}
+	var strict compare.Table
+	if err := json.Unmarshal(out.Bytes(), &strict); err != nil || len(strict.Deviations) != 0 || len(strict.Unmatched) == 0 || !strings.Contains(strict.Unmatched[0].Reason, "input geometry not used") {
+		t.Fatalf("by the optimised-structure rule the single points should be unmatched with the reason: %v %+v", err, strict.Unmatched)
+	}
+	out.Reset()
+	if code := dispatch([]string{"compare", "--archive", arch, "--refs", "moments-exp", "--property-geometry", "input", "--json"}, &out, &errb); code != exitOK {
 		t.Fatalf("exit %d: %s", code, errb.String())
 	}
 	var tab compare.Table
@@ -87,7 +98,7 @@ func TestCompareCommand(t *testing.T) {
 	}
 
 	out.Reset()
-	if code := dispatch([]string{"compare", "--archive", arch, "--refs", "builtin", "--csv"}, &out, &errb); code != exitOK {
+	if code := dispatch([]string{"compare", "--archive", arch, "--refs", "builtin", "--property-geometry", "input", "--csv"}, &out, &errb); code != exitOK {
 		t.Fatalf("--csv exit %d: %s", code, errb.String())
 	}
 	rows, err := csv.NewReader(&out).ReadAll()
@@ -96,7 +107,7 @@ func TestCompareCommand(t *testing.T) {
 	}
 
 	out.Reset()
-	if code := dispatch([]string{"compare", "--archive", arch, "--refs", "builtin"}, &out, &errb); code != exitOK || !strings.Contains(out.String(), "sign-flip") {
+	if code := dispatch([]string{"compare", "--archive", arch, "--refs", "builtin", "--property-geometry", "input"}, &out, &errb); code != exitOK || !strings.Contains(out.String(), "sign-flip") {
 		t.Fatalf("terminal output (exit %d) lacks the CO caution:\n%s", code, out.String())
 	}
 

@@ -19,13 +19,15 @@ type comparisonFlags struct {
 	refs    *string
 	samples *int
 	seed    *uint64
+	scf     *bool
+	geom    *string
 }
 
 // comparisonFlagNames are the flags of addComparisonFlags (with the
 // filters); report writes the ones given into the document's provenance.
 var comparisonFlagNames = map[string]bool{
 	"refs": true, "molecule": true, "formula": true, "method": true, "basis": true, "status": true,
-	"tag": true, "since": true, "until": true, "bootstrap": true, "seed": true,
+	"tag": true, "since": true, "until": true, "bootstrap": true, "seed": true, "scf-moments": true, "property-geometry": true,
 }
 
 func addComparisonFlags(fs *flag.FlagSet) *comparisonFlags {
@@ -34,6 +36,8 @@ func addComparisonFlags(fs *flag.FlagSet) *comparisonFlags {
 		refs:    fs.String("refs", "builtin", "reference `SET`: builtin (all built-in sets), a built-in set name ("+strings.Join(compare.BuiltinNames(), ", ")+") or a reference-set JSON file"),
 		samples: fs.Int("bootstrap", compare.DefaultOptions.BootstrapSamples, "bootstrap resamples for confidence intervals (100–1000000)"),
 		seed:    fs.Uint64("seed", compare.DefaultOptions.Seed, "seed of the bootstrap random stream (fixed: same input, same output)"),
+		scf:     fs.Bool("scf-moments", false, "compare the SCF density's moments of correlated records that have none of their own, labelled as such (e.g. HF/6-31G*//MP2(fc)/6-31G*)"),
+		geom:    fs.String("property-geometry", "", "`RULE` for the geometry of properties and energies: optimised (each level's optimised structure) or input (single points at the input geometry); default: the reference set's"),
 	}
 }
 
@@ -55,7 +59,12 @@ func (c *comparisonFlags) resolve() (*comparison, error) {
 	if err != nil {
 		return nil, err
 	}
-	out := &comparison{filter: f, options: compare.Options{BootstrapSamples: *c.samples, Seed: *c.seed}}
+	switch *c.geom {
+	case "", compare.GeometryRuleOptimised, compare.GeometryRuleInput:
+	default:
+		return nil, fmt.Errorf("--property-geometry %q is not %s or %s", *c.geom, compare.GeometryRuleOptimised, compare.GeometryRuleInput)
+	}
+	out := &comparison{filter: f, options: compare.Options{BootstrapSamples: *c.samples, Seed: *c.seed, SCFMoments: *c.scf, PropertyGeometry: *c.geom}}
 	if out.set, err = compare.LoadRefSet(*c.refs); err != nil {
 		return nil, err
 	}
@@ -126,7 +135,9 @@ func compareArchive(af *archiveFlags, c *comparison, stderr io.Writer) (tab *com
 	if recs, err = withReferenceRecords(st, c.set, recs); err != nil {
 		return nil, nil, exitUsage, err
 	}
-	if tab, err = compare.Compare(c.set, recs, c.options); err != nil {
+	opts := c.options
+	opts.Lookup = st.Lookup()
+	if tab, err = compare.Compare(c.set, recs, opts); err != nil {
 		return nil, nil, exitUsage, err
 	}
 	return tab, recs, 0, nil
@@ -188,16 +199,23 @@ func recordsUsed(tab *compare.Table, recs []*archive.Record) []archive.Record {
 	for _, id := range tab.ReferenceRecords {
 		used[id] = true
 	}
-	// The inputs of derived records used are cited with them.
+	// The inputs of derived records used are cited with them, and the
+	// records whose structures the used ones borrowed belong to their
+	// provenance.
 	byID := map[string]*archive.Record{}
 	for _, r := range recs {
 		byID[r.ID] = r
 	}
+	look := archive.LookupIn(recs)
 	for changed := true; changed; {
 		changed = false
 		for id := range used {
 			if r := byID[id]; r != nil {
-				for _, in := range archive.DerivedInputsOf(r) {
+				ins := archive.DerivedInputsOf(r)
+				if g := archive.GeometryOf(r, look); g.Source != "" && look(g.Source) != nil {
+					ins = append(ins, g.Source)
+				}
+				for _, in := range ins {
 					if !used[in] {
 						used[in], changed = true, true
 					}
