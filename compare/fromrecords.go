@@ -171,6 +171,8 @@ func NewTheorySet(name, description string, entries []Entry) (*RefSet, error) {
 	if description == "" {
 		description = "Theoretical reference values taken from archived moltrail records; each entry names its record and level."
 	}
-	return &RefSet{Format: RefSetFormat, Name: name, Description: description,
+	// A value computed at one geometry is compared with calculations at
+	// the same geometry: single points at the geometry given as input.
+	return &RefSet{Format: RefSetFormat, Name: name, Description: description, PropertyGeometry: GeometryRuleInput,
 		Source: "moltrail archive records (theory); every entry names its record id, level and uncertainty rule", Entries: entries}, nil
 }
