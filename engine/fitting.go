@@ -205,8 +205,8 @@ func fittedJK(job *Job, mol *molecule.Molecule, mb *basis.Molecular, so *scf.Opt
 	st := fj.Stats()
 	mode := fmt.Sprintf("held in memory, %s", FormatMemorySize(st.StoredBytes))
 	if !st.InCore {
-		mode = fmt.Sprintf("recomputed in blocks at every build (holding them would take %s, the budget is %s)",
-			FormatMemorySize(8*int64(st.PairRows)*int64(st.FittedFunctions)), FormatMemorySize(st.MemoryBudgetBytes))
+		mode = fmt.Sprintf("recomputed in blocks at every build (holding them would take %s, the budget is %s; a pass holds %s)",
+			FormatMemorySize(8*int64(st.PairRows)*int64(st.FittedFunctions)), FormatMemorySize(st.MemoryBudgetBytes), FormatMemorySize(st.BlockBytes))
 	}
 	o.logf("  fitted Coulomb/exchange: %s, %d auxiliary functions, metric: %s; fitted integrals %s\n", set.Name, st.AuxFunctions, fj.Metric(), mode)
 	so.ERI, so.JK = eri, fj

@@ -95,3 +95,26 @@ func TestFittingChoices(t *testing.T) {
 		t.Errorf("fitted frequencies from gradient differences: %v", err)
 	}
 }
+
+// A fitted run gives the same bits on one and on three threads, and with
+// a memory limit too small to hold the fitted integrals (blocks).
+func TestFittedRunSameBits(t *testing.T) {
+	j, err := NewJob(Request{Molecule: waterMolecule(), Method: "b3lyp", Basis: "cc-pvdz", Grid: "coarse", Fitting: &FittingRequest{}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var ref *Result
+	for _, o := range []RunOptions{{Threads: 1}, {Threads: 3}, {Threads: 2, MemoryLimitBytes: MinMemoryLimitBytes}} {
+		r, err := Run(j, o)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if ref == nil {
+			ref = r
+			continue
+		}
+		if r.EnergyHartree != ref.EnergyHartree || *r.DipoleDebye != *ref.DipoleDebye {
+			t.Errorf("threads %d, limit %d: energy %.17g, dipole %v; first run %.17g, %v", o.Threads, o.MemoryLimitBytes, r.EnergyHartree, *r.DipoleDebye, ref.EnergyHartree, *ref.DipoleDebye)
+		}
+	}
+}

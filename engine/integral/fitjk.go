@@ -26,7 +26,8 @@ import (
 // Options.MemoryBudgetBytes. Otherwise every build recomputes them in
 // blocks of orbital functions (blocked mode): the exchange needs one pass
 // over the blocks per group of factor columns whose half-transformed
-// integrals fit in the budget, and the Coulomb matrix one more pass.
+// integrals fit in the budget (at least one group per pass, whatever the
+// budget), and the Coulomb matrix one more pass.
 //
 // Determinism. The arithmetic is defined by blocks fixed by the basis
 // (orbital function blocks, groups of 64 factor columns, ranges of the
@@ -54,6 +55,7 @@ type FittedJK struct {
 	b       []float64 // in-core fitted rows [row][fitPad]
 	// blocked mode: factor batches whose half-transformed integrals are held at once
 	passBatches int
+	blockBytes  int64 // blocked mode: the rows of one block and the half-transformed integrals of one pass
 	maxTouch    int // rows of the largest block's pair set
 	screened    int // orbital group pairs left out by the Schwarz test
 
@@ -94,6 +96,7 @@ const (
 	fitBatch      = 64  // factor columns per batch
 	fitBlockFuncs = 64  // target functions per orbital block
 	fitChunkRows  = 256 // rows per transformation task
+	fitChunks     = 24  // ranges of the fitted index
 )
 
 // FitStats describes a fitted J/K builder for the record.
@@ -107,7 +110,8 @@ type FitStats struct {
 	PairRows                      int // orbital function pairs kept
 	ScreenedGroupPairs            int
 	InCore                        bool
-	StoredBytes                   int64
+	StoredBytes                   int64 // in memory: the fitted integrals
+	BlockBytes                    int64 // in blocks: what one pass holds
 	MemoryBudgetBytes             int64
 	Builds, Sweeps                int64
 }
@@ -120,6 +124,8 @@ func (f *FittedJK) Stats() FitStats {
 		MemoryBudgetBytes: f.budget, Builds: f.builds.Load(), Sweeps: f.sweeps.Load()}
 	if f.inCore {
 		s.StoredBytes = int64(8 * len(f.b))
+	} else {
+		s.BlockBytes = f.blockBytes
 	}
 	return s
 }
@@ -203,10 +209,9 @@ func NewFittedJK(tc *ThreeCentre, opt FitOptions) (*FittedJK, error) {
 		}
 		f.maxTouch = max(f.maxTouch, rows)
 	}
-	f.nQ = 64
-	if f.fitPad > 32*f.nQ {
-		f.nQ = gemm.RoundUp((f.fitPad+31)/32, gemm.Cols)
-	}
+	// About fitChunks ranges of the fitted index (at least 16 wide), for
+	// the balance of the exchange work between threads.
+	f.nQ = max(16, gemm.RoundUp((f.fitPad+fitChunks-1)/fitChunks, gemm.Cols))
 	f.nChunks = (f.fitPad + f.nQ - 1) / f.nQ
 	stored := int64(8) * int64(f.nrows) * int64(f.fitPad)
 	if stored <= f.budget {
@@ -220,13 +225,13 @@ func NewFittedJK(tc *ThreeCentre, opt FitOptions) (*FittedJK, error) {
 		f.computeRows(all, off, f.b)
 		return f, nil
 	}
+	// Blocked mode: as many batches of factor columns per pass as the
+	// budget holds, at least one (the least the blocks need, even over a
+	// budget smaller than that).
 	rowsBuf := int64(8) * int64(f.maxTouch) * int64(f.fitPad)
 	perBatch := int64(8) * fitBatch * int64(f.fitPad) * int64(f.nPad)
-	f.passBatches = int((f.budget - rowsBuf) / perBatch)
-	if f.passBatches < 1 {
-		return nil, fmt.Errorf("integral: fitted J/K: the fitted integrals take %.0f MiB, over the memory budget of %.0f MiB, and computing them in blocks needs at least %.0f MiB",
-			float64(stored)/(1<<20), float64(f.budget)/(1<<20), float64(rowsBuf+perBatch)/(1<<20))
-	}
+	f.passBatches = int(max(1, (f.budget-rowsBuf)/perBatch))
+	f.blockBytes = rowsBuf + int64(f.passBatches)*perBatch
 	return f, nil
 }
 

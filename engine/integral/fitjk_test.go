@@ -217,8 +217,9 @@ func TestFittedJKSameBits(t *testing.T) {
 	}
 }
 
-// A budget below what the fitted integrals take selects the blocked mode;
-// one below what the blocks need is refused with the figures.
+// A budget below what the fitted integrals take selects the blocked mode,
+// with one batch of factor columns per pass when it holds no more (even a
+// budget below what that needs).
 func TestFittedJKBudget(t *testing.T) {
 	_, tc := fitSetup(t, "cc-pvdz", "cc-pvdz-jkfit", "", water()...)
 	f, err := NewFittedJK(tc, FitOptions{MemoryBudgetBytes: 64 << 20})
@@ -226,7 +227,13 @@ func TestFittedJKBudget(t *testing.T) {
 		t.Fatalf("64 MiB: in memory %v, error %v", f != nil && f.Stats().InCore, err)
 	}
 	stored := int64(8 * f.nrows * f.fitPad)
-	if _, err := NewFittedJK(tc, FitOptions{MemoryBudgetBytes: stored - 1}); err == nil {
-		t.Error("a budget below the stored size and below what the blocks need was accepted")
+	for _, budget := range []int64{stored - 1, 1} {
+		g, err := NewFittedJK(tc, FitOptions{MemoryBudgetBytes: budget})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if st := g.Stats(); st.InCore || g.passBatches != 1 || st.BlockBytes <= 0 {
+			t.Errorf("budget %d: in memory %v, %d batches a pass, %d bytes a pass", budget, st.InCore, g.passBatches, st.BlockBytes)
+		}
 	}
 }

@@ -228,11 +228,26 @@ def timings():
                           "e_convergence": 1e-10, "d_convergence": 1e-8})
         return psi4.energy("b3lyp", molecule=mol)
 
-    for key, fn, what in [("benzene_rhf_ccpvdz", rhf, "RHF/cc-pVDZ benzene, scf_type df, cc-pvdz-jkfit"),
-                          ("benzene_b3lyp_ccpvdz", b3lyp, "B3LYP/cc-pVDZ benzene, scf_type df, cc-pvdz-jkfit, psi4's default grid")]:
+    xyz = os.path.join(HERE, "..", "..", "engine", "scf", "testdata", "phenylalanine.xyz")
+
+    def phe():
+        reset("gen_df_timing_phe.out")
+        lines = open(xyz).read().splitlines()[2:]
+        mol = psi4.geometry("0 1\n" + "\n".join(lines) + "\nunits angstrom\nnocom\nnoreorient\nsymmetry c1\n")
+        psi4.set_options({"basis": "6-31g*", "puream": False, "scf_type": "df", "df_basis_scf": "def2-qzvpp-jkfit",
+                          "e_convergence": 1e-10, "d_convergence": 1e-8})
+        return psi4.energy("scf", molecule=mol)
+
+    jobs = [("benzene_rhf_ccpvdz", rhf, 1, "RHF/cc-pVDZ benzene, scf_type df, cc-pvdz-jkfit"),
+            ("benzene_b3lyp_ccpvdz", b3lyp, 1, "B3LYP/cc-pVDZ benzene, scf_type df, cc-pvdz-jkfit, psi4's default grid")]
+    if os.path.exists(xyz):
+        jobs.append(("phenylalanine_rhf_631gs", phe, 2, "RHF/6-31G* (Cartesian) phenylalanine (engine/scf/testdata/phenylalanine.xyz, angstrom), "
+                     "scf_type df, def2-qzvpp-jkfit (= def2-universal-JKFIT)"))
+    for key, fn, threads, what in jobs:
+        psi4.set_num_threads(threads)
         e, recs = timed(fn, 3)
         t = {"what": what + "; e_convergence 1e-10, d_convergence 1e-8; wall time of the whole psi4.energy call",
-             "threads": 1, "energy_total_hartree": float(e), "scf_iterations": int(psi4.variable("SCF ITERATIONS"))}
+             "threads": threads, "energy_total_hartree": float(e), "scf_iterations": int(psi4.variable("SCF ITERATIONS"))}
         t.update(timing_summary(recs))
         out[key] = t
         print(key, t["wall_seconds_min"], t["cpu_seconds_min"], flush=True)
