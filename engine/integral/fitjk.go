@@ -56,8 +56,8 @@ type FittedJK struct {
 	// blocked mode: factor batches whose half-transformed integrals are held at once
 	passBatches int
 	blockBytes  int64 // blocked mode: the rows of one block and the half-transformed integrals of one pass
-	maxTouch    int // rows of the largest block's pair set
-	screened    int // orbital group pairs left out by the Schwarz test
+	maxTouch    int   // rows of the largest block's pair set
+	screened    int   // orbital group pairs left out by the Schwarz test
 
 	kpool  sync.Pool
 	mu     sync.Mutex
