@@ -53,7 +53,8 @@ func TestJobLevelNotation(t *testing.T) {
 		if got := JobLevel(&j); got != c.want {
 			t.Errorf("%s multiplicity %d frozen %v: label %q, want %q", c.method, c.mult, c.frozen, got, c.want)
 		}
-	}	// density-fitted Coulomb and exchange: the DF- prefix
+	}
+	// density-fitted Coulomb and exchange: the DF- prefix
 	for _, c := range []struct {
 		method string
 		mult   int
