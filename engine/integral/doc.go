@@ -2,7 +2,17 @@
 // function, one-electron integrals (overlap, kinetic energy, nuclear
 // attraction to point charges, dipole and second-moment integrals about any
 // origin) and electron-repulsion integrals up to g functions, with the
-// contraction of the latter into Coulomb (J) and exchange (K) matrices.
+// contraction of the latter into Coulomb (J) and exchange (K) matrices;
+// and the integrals of density fitting: three-centre (μν|P) and two-centre
+// (P|Q) Coulomb integrals over an auxiliary basis (ThreeCentre), the
+// inverted metric (FitMetric) and fitted J and K (FittedJK).
+//
+// Using the three-centre integrals elsewhere (e.g. fitted correlation
+// energies): NewThreeCentre(eri, auxBasis, ...) over an ERI engine of the
+// orbital basis; Shell(i, j, p, out) gives a raw block (ij|p), Metric()
+// the matrix (P|Q), and FactorMetric(Metric(), cutoff) its inversion, whose
+// Matrix() is M: the fitted factors are B^Q_μν = Σ_P M_QP (P|μν), with
+// MᵀM = (P|Q)⁻¹ on the kept auxiliary space.
 //
 // Algorithm: McMurchie–Davidson (L. E. McMurchie and E. R. Davidson,
 // J. Comput. Phys. 26, 218 (1978)). A product of two Gaussians is expanded

@@ -100,6 +100,17 @@ func TestFittedJKAgainstFullSums(t *testing.T) {
 	if f.Metric().Method != MetricCholesky || f.Metric().Removed != 0 {
 		t.Errorf("water cc-pVDZ-JKFIT metric: %s, want the Cholesky route with nothing removed", f.Metric())
 	}
+	// MᵀM is the inverse metric
+	var mtm mat.Dense
+	M := f.Metric().Matrix()
+	mtm.Mul(M.T(), M)
+	for p := 0; p < na; p++ {
+		for q := 0; q < na; q++ {
+			if d := math.Abs(mtm.At(p, q) - jinv.At(p, q)); d > 1e-8*math.Max(1, math.Abs(jinv.At(p, q))) {
+				t.Fatalf("(MᵀM)[%d,%d] = %g, inverse metric %g", p, q, mtm.At(p, q), jinv.At(p, q))
+			}
+		}
+	}
 	D := []*mat.SymDense{occupiedDensity(n, 5, 1), randomDensity(n, 2)}
 	J, K := f.JK(D, true)
 	for d := range D {

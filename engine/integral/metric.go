@@ -113,6 +113,18 @@ func (m *FitMetric) String() string {
 	return fmt.Sprintf("eigenvalues of the %d×%d metric, %d below %.0e × the largest removed (condition of the rest %.1e)", m.NAux, m.NAux, m.Removed, m.Cutoff, m.Condition)
 }
 
+// Matrix returns M (NFit × NAux): the fitted factors of any pair set are
+// B^Q = Σ_P M_QP (P|··).
+func (m *FitMetric) Matrix() *mat.Dense {
+	out := mat.NewDense(m.NFit, m.NAux, nil)
+	for p := 0; p < m.NAux; p++ {
+		for q := 0; q < m.NFit; q++ {
+			out.Set(q, p, m.mT[p*m.ld+q])
+		}
+	}
+	return out
+}
+
 // metricPanel is the width of the Q panels of the transformation, so that
 // the lower-triangular M is applied without its zero blocks.
 const metricPanel = 64

@@ -65,6 +65,8 @@
 // J and K are built from the density change since the previous build,
 // with a full build every few iterations, whether the integrals are held
 // in memory or recomputed at every build (the two give the same bits).
+// A J/K builder given in Options.JK (density-fitted integrals) is asked for
+// the full density at every build.
 //
 // Non-convergence within MaxIter is a result (Converged false, with the
 // history), not an error. All reductions run in a fixed order, so the same
